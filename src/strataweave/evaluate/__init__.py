@@ -1,0 +1,1 @@
+"""evaluate layer (see DESIGN.md)."""

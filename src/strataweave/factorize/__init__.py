@@ -1,0 +1,1 @@
+"""factorize layer (see DESIGN.md)."""

@@ -1,0 +1,1 @@
+"""subtypes layer (see DESIGN.md)."""
