@@ -1,0 +1,147 @@
+"""The sections of a workflow file: one frozen dataclass per section, one field per key.
+
+Field names are the TOML keys. Each field carries its value rule in `metadata["rule"]`;
+a field without a default is required. The parser in `workflow.config` reads these
+definitions, so a key exists in exactly one place.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from strataweave.workflow import rules
+
+MODALITY_KINDS = ("counts", "beta", "abundance", "log_expression", "copy_number")
+ORIENTATIONS = ("features_in_rows", "samples_in_rows")
+SAFE_NAME = r"[A-Za-z0-9][A-Za-z0-9_.-]*"
+
+
+def key(rule: rules.Rule, *default: object, doc: str = "") -> object:
+    """A dataclass field for one workflow key; no default means the key is required."""
+    meta = {"rule": rule, "doc": doc}
+    if default:
+        return field(default=default[0], metadata=meta)
+    return field(metadata=meta)
+
+
+@dataclass(frozen=True)
+class CohortSettings:
+    """[cohort]: the clinical table and its survival columns."""
+
+    clinical: Path = key(rules.existing_file(), doc="clinical table, one row per patient")
+    id_column: str = key(rules.text(), "patient_id", doc="column with the patient identifiers")
+    time_column: str | None = key(rules.text(), None, doc="survival time column")
+    event_column: str | None = key(rules.text(), None, doc="event column: 1 = event, 0 = censored")
+
+
+@dataclass(frozen=True)
+class ModalitySettings:
+    """[[modality]]: one omics layer, how to read it, how to filter it, its weight."""
+
+    name: str = key(rules.text(SAFE_NAME, "a name of letters, digits, '_', '.', '-'"))
+    path: Path = key(rules.existing_file())
+    kind: str = key(rules.choice(*MODALITY_KINDS))
+    orientation: str | None = key(rules.choice(*ORIENTATIONS), None, doc="omitted = detect")
+    weight: float = key(rules.number(above=0), 1.0, doc="relative weight in the factorisation")
+    max_missing: float = key(rules.number(0, 1), 0.2, doc="drop features missing in more patients")
+    keep_most_variable: int | None = key(rules.integer(1), 2000, doc="top features by variance")
+    quantile_normalise: bool = key(rules.flag(), False)
+    impute: str = key(rules.choice("knn", "median"), "knn")
+    scale: str = key(rules.choice("zscore", "none"), "zscore")
+    nonnegative: str = key(rules.choice("shift", "split"), "split")
+
+
+@dataclass(frozen=True)
+class GraphSettings:
+    """[graph]: per-modality patient-similarity graphs and the rule that fuses them."""
+
+    neighbours: int = key(rules.integer(2), 20)
+    metric: str = key(rules.choice("euclidean", "correlation", "cosine"), "euclidean")
+    kernel: str = key(rules.choice("scaled_exponential", "gaussian"), "scaled_exponential")
+    fusion: str = key(rules.choice("intersection", "quorum", "average", "diffusion"), "intersection")
+    quorum: int | None = key(rules.integer(1), None, doc="modalities that must agree (fusion = quorum)")
+
+
+@dataclass(frozen=True)
+class FactorizationSettings:
+    """[factorization]: the graph-regularised joint NMF."""
+
+    graph_weight: float = key(rules.number(minimum=0), 1.0)
+    restarts: int = key(rules.integer(1), 3)
+    max_iter: int = key(rules.integer(1), 300)
+    tolerance: float = key(rules.number(above=0), 1e-4)
+    init: str = key(rules.choice("nndsvda", "nndsvd", "random"), "nndsvda")
+
+
+@dataclass(frozen=True)
+class SubtypeSettings:
+    """[subtypes]: the counts to try and which one to use."""
+
+    counts: tuple[int, ...] = key(
+        rules.list_of(rules.integer(2), "an integer >= 2 or a list of them", allow_single=True),
+        (2, 3, 4, 5, 6),
+    )
+    use_count: int | str = key(
+        rules.either(rules.choice("recommended"), rules.integer(2), "'recommended' or an integer >= 2"),
+        "recommended",
+    )
+    min_size: int = key(rules.integer(1), 10, doc="never recommend a count with a smaller subtype")
+    pac_window: tuple[float, ...] = key(
+        rules.list_of(rules.number(0, 1), "two numbers between 0 and 1, lower first"), (0.1, 0.9)
+    )
+    core_threshold: float = key(rules.number(0, 1), 0.8, doc="mean consensus with the own subtype")
+    labelling: str = key(rules.choice("kmeans", "argmax"), "kmeans")
+
+
+@dataclass(frozen=True)
+class ResamplingSettings:
+    """[resampling]: the consensus resamples and where they run."""
+
+    resamples: int = key(rules.integer(1), 30)
+    fraction: float = key(rules.number(maximum=1, above=0), 0.8)
+    backend: str = key(rules.choice("serial", "processes", "dask"), "serial")
+    jobs: int = key(rules.integer(1), 1)
+    scheduler: str | None = key(rules.text(), None, doc="Dask scheduler address (backend = dask)")
+
+
+@dataclass(frozen=True)
+class EvaluationSettings:
+    """[evaluation]: survival, clinical association, markers and enrichment."""
+
+    covariates: tuple[str, ...] = key(rules.list_of(rules.text(), "a list of column names"), ())
+    strata: tuple[str, ...] = key(rules.list_of(rules.text(), "a list of column names"), ())
+    clinical_columns: tuple[str, ...] | None = key(
+        rules.list_of(rules.text(), "a list of column names"), None, doc="omitted = all other columns"
+    )
+    rmst_horizon: float | None = key(rules.number(above=0), None)
+    permutations: int = key(rules.integer(0), 2000)
+    min_group_size: int = key(rules.integer(1), 5)
+    marker_test: str = key(rules.choice("mann_whitney", "welch"), "mann_whitney")
+    marker_fdr: float = key(rules.number(maximum=1, above=0), 0.05)
+    markers_per_subtype: int = key(rules.integer(1), 20)
+    gene_sets: Path | None = key(rules.existing_file(), None)
+    min_set_size: int = key(rules.integer(1), 5)
+    max_set_size: int = key(rules.integer(1), 500)
+
+
+@dataclass(frozen=True)
+class ReportSettings:
+    """[report]: what the report looks like and what it may show."""
+
+    title: str = key(rules.text(), "Patient subtypes")
+    formats: tuple[str, ...] = key(
+        rules.list_of(rules.choice("html", "pdf"), "a list of 'html' and/or 'pdf'"), ("html", "pdf")
+    )
+    show_patient_ids: bool = key(rules.flag(), False)
+
+
+SECTIONS = {
+    "cohort": CohortSettings,
+    "graph": GraphSettings,
+    "factorization": FactorizationSettings,
+    "subtypes": SubtypeSettings,
+    "resampling": ResamplingSettings,
+    "evaluation": EvaluationSettings,
+    "report": ReportSettings,
+}

@@ -1,0 +1,84 @@
+"""Workflow files: defaults, path resolution against the file's folder, strict keys."""
+
+from __future__ import annotations
+
+import dataclasses
+from pathlib import Path
+
+import pytest
+
+from strataweave import InputError
+from strataweave.workflow.config import load_workflow, parse_workflow
+from strataweave.workflow.settings import SECTIONS, ModalitySettings
+
+from workflow_files import MINIMAL
+
+
+def test_minimal_file_takes_every_default(tiny_files: Path) -> None:
+    flow = load_workflow(tiny_files / "flow.toml")
+    assert flow.seed == 0
+    assert flow.cohort.id_column == "patient_id"
+    assert flow.cohort.time_column is None and not flow.has_survival
+    assert flow.subtypes.counts == (2, 3, 4, 5, 6)
+    assert flow.modalities[0].orientation is None  # omitted = detect
+    for name, cls in SECTIONS.items():
+        section = getattr(flow, name)
+        for spec in dataclasses.fields(cls):
+            if spec.default is not dataclasses.MISSING:
+                assert getattr(section, spec.name) == spec.default, f"{name}.{spec.name}"
+
+
+def test_relative_paths_resolve_against_the_workflow_folder(tiny_files: Path, monkeypatch) -> None:
+    elsewhere = tiny_files / "elsewhere"
+    elsewhere.mkdir()
+    monkeypatch.chdir(elsewhere)
+    flow = load_workflow(tiny_files / "flow.toml")
+    assert flow.cohort.clinical == (tiny_files / "clinical.tsv").resolve()
+    assert flow.modalities[0].path == (tiny_files / "rna.tsv").resolve()
+    assert set(flow.input_files()) == {"clinical", "modality:rna"}
+
+
+def test_single_count_and_overrides(tiny_files: Path) -> None:
+    text = MINIMAL + "\n[subtypes]\ncounts = 3\n"
+    flow = parse_workflow(text, tiny_files / "flow.toml")
+    assert flow.subtypes.counts == (3,)
+    changed = flow.with_overrides(seed=11, jobs=2)
+    assert (changed.seed, changed.resampling.jobs) == (11, 2)
+    assert (flow.seed, flow.resampling.jobs) == (0, 1)  # the original is untouched
+
+
+def test_evaluate_workflow_may_have_no_modalities(tiny_files: Path) -> None:
+    text = '[cohort]\nclinical = "clinical.tsv"\ntime_column = "os_months"\nevent_column = "os_event"\n'
+    flow = parse_workflow(text, tiny_files / "flow.toml", require_modalities=False)
+    assert flow.modalities == () and flow.has_survival
+    with pytest.raises(InputError, match="'modality'"):
+        parse_workflow(text, tiny_files / "flow.toml")
+
+
+def test_modality_keys_are_all_optional_except_name_path_kind() -> None:
+    required = [f.name for f in dataclasses.fields(ModalitySettings) if f.default is dataclasses.MISSING]
+    assert required == ["name", "path", "kind"]
+
+
+@pytest.mark.parametrize(
+    "addition, key",
+    [
+        ("\n[graph]\nneighbors = 5\n", "graph.neighbors"),
+        ("\n[graph]\nneighbours = 1\n", "graph.neighbours"),
+        ("\n[subtypes]\ncounts = [1, 2]\n", "subtypes.counts"),
+        ("\n[subtypes]\ncounts = [2, 3]\nuse_count = 5\n", "subtypes.use_count"),
+        ("\n[resampling]\nfraction = 1.5\n", "resampling.fraction"),
+        ("\n[report]\nshow_patient_ids = \"yes\"\n", "report.show_patient_ids"),
+    ],
+)
+def test_errors_name_the_key(tiny_files: Path, addition: str, key: str) -> None:
+    with pytest.raises(InputError) as caught:
+        parse_workflow(MINIMAL + addition, tiny_files / "flow.toml")
+    message = str(caught.value)
+    assert f"'{key}'" in message and "flow.toml" in message and "\n" not in message
+
+
+def test_error_in_a_modality_names_it(tiny_files: Path) -> None:
+    text = MINIMAL.replace('kind = "log_expression"', 'kind = "count"')
+    with pytest.raises(InputError, match=r"'modality\[rna\]\.kind'.*'counts'"):
+        parse_workflow(text, tiny_files / "flow.toml")
