@@ -1,0 +1,122 @@
+"""Run independent tasks through joblib: serial, local processes, or Dask distributed.
+
+Every task runs with BLAS limited to one thread (threadpoolctl), whatever the backend: worker
+processes then do not oversubscribe the cores, and floating-point sums happen in the same
+order everywhere, so a task given the same seed returns the same result on every backend.
+The limit is set in this process for the whole run as well: serial tasks and the threads of
+an in-process Dask cluster then share one setting instead of racing to set and restore it.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Iterator, Sequence
+from contextlib import contextmanager
+from dataclasses import dataclass
+from typing import Any
+
+import joblib
+import scipy.linalg  # noqa: F401  (loads scipy's BLAS now, so the thread limit reaches it too)
+from threadpoolctl import threadpool_limits
+
+from strataweave.errors import InputError
+
+BACKENDS = ("serial", "processes", "dask")
+
+
+@dataclass(frozen=True)
+class ParallelSettings:
+    """Where the tasks run.
+
+    backend: "serial" (this process), "processes" (``n_jobs`` local processes) or "dask".
+    scheduler: for "dask", the address of a running scheduler; ``None`` starts a LocalCluster
+    with ``n_jobs`` single-threaded workers for the run and stops it afterwards.
+    connect_timeout: seconds to wait for the scheduler before giving up with an InputError.
+    local_cluster_processes: whether that LocalCluster's workers are processes (else threads).
+    """
+
+    backend: str = "serial"
+    n_jobs: int = 1
+    scheduler: str | None = None
+    connect_timeout: float = 10.0
+    local_cluster_processes: bool = True
+
+    def __post_init__(self) -> None:
+        if self.backend not in BACKENDS:
+            raise InputError(f"backend: found {self.backend!r}; expected one of {', '.join(BACKENDS)}")
+        if not isinstance(self.n_jobs, int) or self.n_jobs < 1:
+            raise InputError(f"n_jobs: found {self.n_jobs!r}; expected a whole number >= 1")
+        if self.connect_timeout <= 0:
+            raise InputError(f"connect_timeout: found {self.connect_timeout}; expected seconds > 0")
+
+
+def _single_threaded(function: Callable, shared: Any, params: Any) -> Any:
+    with threadpool_limits(limits=1):
+        return function(shared, params)
+
+
+@contextmanager
+def _dask_client(settings: ParallelSettings) -> Iterator[Any]:
+    """A Dask client for the run: connected to `settings.scheduler`, or to a fresh LocalCluster."""
+    try:
+        from distributed import Client, LocalCluster
+    except ImportError:
+        raise InputError(
+            "backend: found 'dask' but the distributed package is not installed; "
+            "expected strataweave installed with its 'distributed' extra"
+        ) from None
+    if settings.scheduler is None:
+        cluster = LocalCluster(
+            n_workers=settings.n_jobs,
+            threads_per_worker=1,
+            processes=settings.local_cluster_processes,
+            dashboard_address=None,
+        )
+        client = Client(cluster)
+    else:
+        cluster = None
+        try:
+            client = Client(settings.scheduler, timeout=settings.connect_timeout)
+        except (OSError, TimeoutError) as error:
+            raise InputError(
+                f"scheduler: found no Dask scheduler answering at {settings.scheduler!r} within "
+                f"{settings.connect_timeout:g} s ({error}); expected the address of a running scheduler"
+            ) from None
+    try:
+        yield client
+    finally:
+        client.close()
+        if cluster is not None:
+            cluster.close()
+
+
+def run_tasks(
+    function: Callable[[Any, Any], Any],
+    shared: Any,
+    task_params: Sequence[Any],
+    settings: ParallelSettings = ParallelSettings(),
+    progress: Callable[[int], None] | None = None,
+) -> list[Any]:
+    """``[function(shared, p) for p in task_params]``, run on the chosen backend, in order.
+
+    `function` must be importable at module level (it travels to other processes). `shared`
+    holds the large inputs, sent once per worker where the backend allows (memory-mapped for
+    local processes, scattered for Dask). `progress`, if given, is called with the number of
+    finished tasks after each one.
+    """
+    calls = (joblib.delayed(_single_threaded)(function, shared, params) for params in task_params)
+    with threadpool_limits(limits=1):
+        if settings.backend == "dask":
+            with _dask_client(settings), joblib.parallel_config(backend="dask", scatter=[shared]):
+                return _collect(joblib.Parallel(return_as="generator")(calls), progress)
+        n_jobs = 1 if settings.backend == "serial" else settings.n_jobs
+        backend = "sequential" if n_jobs == 1 else "loky"
+        return _collect(joblib.Parallel(n_jobs=n_jobs, backend=backend, return_as="generator")(calls), progress)
+
+
+def _collect(results: Iterator[Any], progress: Callable[[int], None] | None) -> list[Any]:
+    collected = []
+    for result in results:
+        collected.append(result)
+        if progress is not None:
+            progress(len(collected))
+    return collected

@@ -1,0 +1,97 @@
+"""The rule that turns the criteria table into one recommended subtype count, with its reason."""
+
+from __future__ import annotations
+
+from dataclasses import asdict, dataclass
+
+import numpy as np
+import pandas as pd
+
+from strataweave.errors import InputError
+
+RULE = (
+    "Only counts whose smallest subtype has at least min_size patients are eligible. Among "
+    "them, the counts whose PAC lies within pac_tolerance of the lowest eligible PAC are "
+    "equally crisp; of these the one with the highest stability (mean ARI of resample labels "
+    "against full-data labels) is chosen, and a remaining tie goes to the smaller count. "
+    "A count chosen by the user replaces the rule's choice but must also be eligible."
+)
+
+
+@dataclass(frozen=True)
+class Recommendation:
+    """The chosen count, who chose it, the rule's own choice and one sentence of reason."""
+
+    count: int
+    chosen_by: str
+    rule_count: int
+    reason: str
+    rule: str = RULE
+
+    def to_dict(self) -> dict:
+        return asdict(self)
+
+
+def _eligible(criteria: pd.DataFrame, min_size: int) -> pd.DataFrame:
+    eligible = criteria[criteria["smallest_subtype"] >= min_size]
+    if eligible.empty:
+        sizes = ", ".join(f"{k}: {int(s)}" for k, s in criteria["smallest_subtype"].items())
+        raise InputError(
+            f"min_size: found smallest subtypes ({sizes}) all below min_size={min_size}; "
+            "expected at least one count whose smallest subtype reaches it (lower min_size or the counts)"
+        )
+    return eligible
+
+
+def rule_choice(criteria: pd.DataFrame, min_size: int, pac_tolerance: float) -> tuple[int, str]:
+    """The count the rule picks and the reason sentence (see RULE)."""
+    eligible = _eligible(criteria, min_size)
+    pac = eligible["pac"].fillna(np.inf)
+    best_pac = float(pac.min())
+    near = eligible[pac <= best_pac + pac_tolerance]
+    stability = near["stability"].fillna(-np.inf)
+    top = near[stability == stability.max()]
+    count = int(top.index.min())
+    row = criteria.loc[count]
+    if len(near) == 1:
+        reason = (
+            f"{count} subtypes: the lowest PAC ({row['pac']:.3f}) among counts whose smallest "
+            f"subtype has at least {min_size} patients."
+        )
+    else:
+        others = ", ".join(str(int(k)) for k in near.index if k != count)
+        reason = (
+            f"{count} subtypes: PAC {row['pac']:.3f} is within {pac_tolerance:g} of the lowest "
+            f"({best_pac:.3f}) among counts whose smallest subtype has at least {min_size} patients, "
+            f"and its stability (mean ARI {row['stability']:.3f}) is the highest of those counts "
+            f"(also near: {others})."
+        )
+    return count, reason
+
+
+def recommend_count(
+    criteria: pd.DataFrame,
+    *,
+    min_size: int,
+    pac_tolerance: float = 0.02,
+    user_count: int | None = None,
+) -> Recommendation:
+    """Apply RULE to a criteria table indexed by count (columns pac, stability, smallest_subtype)."""
+    if pac_tolerance < 0:
+        raise InputError(f"pac_tolerance: found {pac_tolerance}; expected a number >= 0")
+    count, reason = rule_choice(criteria, min_size, pac_tolerance)
+    if user_count is None:
+        return Recommendation(count=count, chosen_by="rule", rule_count=count, reason=reason)
+    if user_count not in criteria.index:
+        raise InputError(
+            f"subtype count: found {user_count}; expected one of the counts swept "
+            f"({', '.join(str(int(k)) for k in criteria.index)})"
+        )
+    smallest = int(criteria.loc[user_count, "smallest_subtype"])
+    if smallest < min_size:
+        raise InputError(
+            f"subtype count: found {user_count}, whose smallest subtype has {smallest} patients; "
+            f"expected a count whose smallest subtype has at least min_size={min_size}"
+        )
+    user_reason = f"{user_count} subtypes: chosen by the user; the rule would choose {reason}"
+    return Recommendation(count=int(user_count), chosen_by="user", rule_count=count, reason=user_reason)

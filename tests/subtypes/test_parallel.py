@@ -1,0 +1,62 @@
+"""The parallel runner: same results on every backend, progress, and a clear error for a dead scheduler."""
+
+import time
+
+import numpy as np
+import pytest
+from threadpoolctl import threadpool_info
+
+from strataweave import InputError
+from strataweave.seeding import child_seeds
+from strataweave.subtypes.parallel import ParallelSettings, run_tasks
+
+
+def seeded_projection_labels(shared, seed):
+    """A small seeded labelling task, with the BLAS thread limit seen inside the worker."""
+    rng = np.random.default_rng(seed)
+    data = shared["data"]
+    rows = rng.choice(data.shape[0], size=40, replace=False)
+    labels = np.argmax(data[rows] @ rng.normal(size=(data.shape[1], 3)), axis=1)
+    blas_threads = [pool["num_threads"] for pool in threadpool_info() if pool["user_api"] == "blas"]
+    return rows, labels, blas_threads
+
+
+@pytest.fixture(scope="module")
+def shared():
+    return {"data": np.random.default_rng(0).normal(size=(60, 5))}
+
+
+@pytest.mark.slow
+def test_results_are_identical_on_serial_processes_and_dask(shared):
+    seeds = child_seeds(11, 6)
+    ticks = []
+    serial = run_tasks(seeded_projection_labels, shared, seeds, ParallelSettings("serial"), progress=ticks.append)
+    assert ticks == [1, 2, 3, 4, 5, 6]
+    local = run_tasks(seeded_projection_labels, shared, seeds, ParallelSettings("processes", n_jobs=2))
+    dask = run_tasks(
+        seeded_projection_labels,
+        shared,
+        seeds,
+        ParallelSettings("dask", n_jobs=2, local_cluster_processes=False),
+    )
+    for a, b, c in zip(serial, local, dask, strict=True):
+        np.testing.assert_array_equal(a[0], b[0])
+        np.testing.assert_array_equal(a[1], b[1])
+        np.testing.assert_array_equal(a[1], c[1])
+        assert all(threads == 1 for threads in a[2] + b[2] + c[2])
+
+
+def test_unreachable_scheduler_is_an_input_error_within_the_timeout(shared):
+    started = time.monotonic()
+    settings = ParallelSettings("dask", scheduler="tcp://127.0.0.1:9", connect_timeout=1.0)
+    with pytest.raises(InputError, match="no Dask scheduler answering at 'tcp://127.0.0.1:9'"):
+        run_tasks(seeded_projection_labels, shared, [1], settings)
+    assert time.monotonic() - started < 10
+
+
+@pytest.mark.parametrize(
+    "kwargs, message", [({"backend": "gpu"}, "backend"), ({"n_jobs": 0}, "n_jobs"), ({"connect_timeout": 0}, "connect")]
+)
+def test_bad_settings_are_input_errors(kwargs, message):
+    with pytest.raises(InputError, match=message):
+        ParallelSettings(**kwargs)

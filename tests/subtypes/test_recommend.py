@@ -1,0 +1,48 @@
+"""The recommendation rule on criteria tables written by hand."""
+
+import pandas as pd
+import pytest
+
+from strataweave import InputError
+from strataweave.subtypes.recommend import RULE, recommend_count
+
+
+def criteria(pac, stability, smallest):
+    return pd.DataFrame(
+        {"pac": pac, "stability": stability, "smallest_subtype": smallest}, index=pd.Index([2, 3, 4, 5], name="count")
+    )
+
+
+def test_lowest_pac_wins_when_it_stands_alone():
+    table = criteria([0.30, 0.02, 0.15, 0.20], [0.6, 0.9, 0.8, 0.7], [80, 40, 30, 20])
+    choice = recommend_count(table, min_size=10)
+    assert (choice.count, choice.chosen_by, choice.rule_count) == (3, "rule", 3)
+    assert choice.reason.startswith("3 subtypes: the lowest PAC (0.020)")
+    assert choice.rule == RULE and "min_size" in RULE
+
+
+def test_near_ties_in_pac_go_to_the_most_stable_then_the_smaller_count():
+    table = criteria([0.05, 0.04, 0.045, 0.30], [0.80, 0.85, 0.95, 0.5], [80, 40, 30, 20])
+    assert recommend_count(table, min_size=10, pac_tolerance=0.02).count == 4
+    assert recommend_count(table, min_size=10, pac_tolerance=0.0).count == 3
+    tied = criteria([0.01, 0.01, 0.2, 0.3], [0.9, 0.9, 0.5, 0.5], [80, 40, 30, 20])
+    assert recommend_count(tied, min_size=10).count == 2
+
+
+def test_never_a_count_whose_smallest_subtype_is_below_min_size():
+    table = criteria([0.30, 0.20, 0.0, 0.25], [0.5, 0.7, 1.0, 0.6], [80, 40, 3, 20])
+    choice = recommend_count(table, min_size=10)
+    assert choice.count == 3 and "at least 10 patients" in choice.reason
+    with pytest.raises(InputError, match="min_size=100"):
+        recommend_count(table, min_size=100)
+
+
+def test_user_override_is_kept_with_the_rules_choice_in_the_reason():
+    table = criteria([0.30, 0.02, 0.15, 0.20], [0.6, 0.9, 0.8, 0.7], [80, 40, 3, 20])
+    choice = recommend_count(table, min_size=10, user_count=5)
+    assert (choice.count, choice.chosen_by, choice.rule_count) == (5, "user", 3)
+    assert "chosen by the user; the rule would choose 3 subtypes" in choice.reason
+    with pytest.raises(InputError, match="found 4, whose smallest subtype has 3 patients"):
+        recommend_count(table, min_size=10, user_count=4)
+    with pytest.raises(InputError, match="expected one of the counts swept"):
+        recommend_count(table, min_size=10, user_count=9)
