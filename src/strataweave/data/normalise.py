@@ -1,0 +1,85 @@
+"""Normalisation by kind of data, and quantile normalisation across patients.
+
+All functions take and return patients x features float arrays; NaN marks a missing cell
+and stays missing.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from scipy.stats import rankdata
+
+
+def log2_cpm(counts: np.ndarray, prior_count: float) -> np.ndarray:
+    """log2 counts per million with a prior count, per patient (row).
+
+    log2((count + prior) / (library + 2 * prior) * 1e6), the definition used by voom
+    (Law et al. 2014, Genome Biology); the library size is the patient's total count.
+    """
+    library = np.nansum(counts, axis=1, keepdims=True)
+    return np.log2((counts + prior_count) / (library + 2.0 * prior_count) * 1e6)
+
+
+def m_values(beta: np.ndarray, beta_floor: float) -> np.ndarray:
+    """M-values log2(beta / (1 - beta)) (Du et al. 2010, BMC Bioinformatics).
+
+    Beta values are first clipped into [beta_floor, 1 - beta_floor] so 0 and 1 stay finite.
+    """
+    clipped = np.clip(beta, beta_floor, 1.0 - beta_floor)
+    return np.log2(clipped) - np.log2(1.0 - clipped)
+
+
+def log2_abundance(abundance: np.ndarray, log_offset: float) -> np.ndarray:
+    """log2(abundance + log_offset); a value that is not positive after the offset becomes missing.
+
+    With the default offset 0 a zero abundance counts as not detected (missing), not as -inf.
+    """
+    shifted = abundance + log_offset
+    out = np.full(shifted.shape, np.nan)
+    np.log2(shifted, out=out, where=shifted > 0)
+    return out
+
+
+def _sample_sorted(sorted_rows: np.ndarray, observed: np.ndarray, positions: np.ndarray) -> np.ndarray:
+    """Linear interpolation of each row's sorted observed values at fractional positions in [0, 1].
+
+    `sorted_rows` holds each row sorted ascending with NaN last; `observed` is the number
+    of non-NaN values per row; `positions` broadcasts against (rows, points).
+    """
+    last = np.maximum(observed - 1, 0)[:, None]
+    index = positions * last
+    low = np.floor(index).astype(np.int64)
+    high = np.minimum(low + 1, last)
+    weight = index - low
+    lower = np.take_along_axis(sorted_rows, low, axis=1)
+    upper = np.take_along_axis(sorted_rows, high, axis=1)
+    return lower + weight * (upper - lower)
+
+
+def quantile_reference(values: np.ndarray) -> np.ndarray:
+    """The mean sorted distribution of the patients (Bolstad et al. 2003, Bioinformatics).
+
+    Each patient's observed values are sorted; patients with missing cells are first
+    resampled onto as many evenly spaced quantiles as there are features; the reference is
+    the mean across patients at each quantile.
+    """
+    observed = (~np.isnan(values)).sum(axis=1)
+    rows = observed > 0
+    n_points = values.shape[1]
+    grid = np.linspace(0.0, 1.0, n_points)[None, :]
+    sampled = _sample_sorted(np.sort(values[rows], axis=1), observed[rows], grid)
+    return sampled.mean(axis=0)
+
+
+def quantile_apply(values: np.ndarray, reference: np.ndarray) -> np.ndarray:
+    """Give each observed value the reference value at its within-patient rank.
+
+    Ties get the reference interpolated at their average rank; missing cells stay missing.
+    New patients are mapped onto the fitted reference the same way.
+    """
+    ranks = rankdata(values, axis=1, method="average", nan_policy="omit")
+    observed = (~np.isnan(values)).sum(axis=1, keepdims=True)
+    last = reference.size - 1
+    index = np.where(observed > 1, (ranks - 1.0) * (last / np.maximum(observed - 1, 1)), last / 2.0)
+    index[np.isnan(values)] = np.nan
+    return np.interp(index, np.arange(reference.size), reference)

@@ -1,0 +1,111 @@
+"""Readers for the clinical table and for one omics matrix, validated and turned to patients x features."""
+
+from __future__ import annotations
+
+from collections.abc import Iterable
+
+import numpy as np
+import pandas as pd
+
+from strataweave.data.cells import read_cells
+from strataweave.data.positions import TablePositions, input_error, shown
+from strataweave.data.validation import (
+    MISSING_TOKENS,
+    check_identifiers,
+    check_kind,
+    check_values,
+    parse_numbers,
+)
+
+ORIENTATIONS = ("features_in_rows", "samples_in_rows")
+
+
+def read_clinical(path, id_column: str) -> pd.DataFrame:
+    """The clinical table indexed by stripped string patient IDs.
+
+    Columns whose every present cell is a number become float64 (missing cells NaN);
+    other columns keep their stripped text (missing cells None).
+    """
+    table = read_cells(path)
+    if table.body.shape[0] == 0:
+        raise input_error(table.source, "file", "a header and no data rows", "one row per patient")
+    header = pd.Index([str(h).strip() for h in table.header], dtype=object)
+    header_positions = TablePositions(table.source, pd.Index(["header"]), header, table.first_line - 1, table.unit)
+    check_identifiers(header, header_positions, "column")
+    if id_column not in header:
+        raise input_error(table.source, f"line {table.first_line - 1} (header)",
+                          "columns " + ", ".join(shown(h) for h in header[:8]),
+                          f"a column named {shown(id_column)}")
+    id_at = header.get_loc(id_column)
+    positions = TablePositions(table.source, pd.Index(table.body[:, id_at]), header, table.first_line, table.unit)
+    patients = check_identifiers(pd.Index(table.body[:, id_at]), positions, "row")
+    columns = {name: _clinical_column(table.body[:, j]) for j, name in enumerate(header) if j != id_at}
+    return pd.DataFrame(columns, index=pd.Index(patients, name=id_column))
+
+
+def _clinical_column(cells: np.ndarray) -> np.ndarray:
+    """Numbers if every present cell parses as one, otherwise stripped text."""
+    text = pd.Series(cells, dtype=object).str.strip()
+    missing = text.isin(MISSING_TOKENS)
+    numbers = pd.to_numeric(text.where(~missing, "nan"), errors="coerce")
+    if not (numbers.isna() & ~missing).any():
+        return numbers.to_numpy(dtype=np.float64)
+    return text.where(~missing, None).to_numpy(dtype=object)
+
+
+def read_matrix(
+    path,
+    orientation: str | None = None,
+    known_ids: Iterable[str] | None = None,
+    name: str | None = None,
+    kind: str | None = None,
+) -> pd.DataFrame:
+    """One omics matrix as patients x features (float64), validated.
+
+    `orientation` says whether the file holds features in rows or samples in rows; when
+    it is None it is detected by matching the row and column identifiers to `known_ids`
+    (usually the clinical patient IDs). Identifiers are stripped of surrounding
+    whitespace. When `kind` is given, values are checked against its range (counts and
+    abundances non-negative, beta values in [0, 1]).
+    """
+    table = read_cells(path)
+    source = table.source if name is None else f"{table.source} (modality {shown(name)})"
+    if kind is not None:
+        check_kind(kind, source)
+    if table.body.shape[0] == 0 or table.header.size < 2:
+        raise input_error(source, "file", f"{table.body.shape[0]} data rows and {table.header.size} columns",
+                          "a header, at least one data row and at least two columns")
+    positions = TablePositions(source, pd.Index(table.body[:, 0]), pd.Index(table.header[1:]),
+                               table.first_line, table.unit)
+    rows = check_identifiers(positions.row_labels, positions, "row")
+    columns = check_identifiers(positions.column_labels, positions, "column")
+    orientation = _orientation(orientation, rows, columns, known_ids, source)
+    values = parse_numbers(table.body[:, 1:], positions)
+    check_values(values, positions, kind)
+    frame = pd.DataFrame(values, index=rows, columns=columns)
+    if orientation == "features_in_rows":
+        frame = frame.T
+    frame.index.name = "patient_id"
+    frame.columns.name = "feature"
+    return frame
+
+
+def _orientation(given, rows: pd.Index, columns: pd.Index, known_ids, source: str) -> str:
+    """The given orientation, or the side whose identifiers match more of `known_ids`."""
+    if given is not None:
+        if given not in ORIENTATIONS:
+            raise input_error(source, "key 'orientation'", shown(given), "one of " + ", ".join(ORIENTATIONS))
+        return given
+    if known_ids is None:
+        raise input_error(source, "key 'orientation'", "no orientation and no patient IDs to detect it",
+                          "an orientation or the clinical patient IDs")
+    known = pd.Index([str(k).strip() for k in known_ids]).str.casefold()
+    in_rows = int(rows.str.casefold().isin(known).sum())
+    in_columns = int(columns.str.casefold().isin(known).sum())
+    if in_rows == in_columns:
+        raise input_error(source, "orientation",
+                          f"{in_rows} of {rows.size} row IDs and {in_columns} of {columns.size} column IDs "
+                          "among the patient IDs",
+                          "patient IDs on one side only; give the orientation")
+    return "samples_in_rows" if in_rows > in_columns else "features_in_rows"
+

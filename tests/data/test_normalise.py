@@ -1,0 +1,131 @@
+"""Normalisation, filters, imputation and scaling checked against published examples and reference libraries."""
+
+import math
+
+import numpy as np
+import pandas as pd
+import pytest
+from scipy.stats import median_abs_deviation, zscore
+from sklearn.impute import KNNImputer
+
+from strataweave.data import Preprocessor
+from strataweave.data.filters import top_ranked
+from strataweave.data.normalise import log2_cpm, m_values, quantile_apply, quantile_reference
+
+
+def _frame(values, prefix="G"):
+    values = np.asarray(values, dtype=float)
+    return pd.DataFrame(
+        values,
+        index=[f"P{i}" for i in range(values.shape[0])],
+        columns=[f"{prefix}{j}" for j in range(values.shape[1])],
+    )
+
+
+def test_log2_cpm_matches_hand_computation():
+    # Definition (Law et al. 2014, voom): log2((count + 0.5) / (library + 1) * 1e6).
+    # Patient with counts 1 and 3: library 4 -> 1.5 / 5 * 1e6 = 300000 and 3.5 / 5 * 1e6 = 700000.
+    # Patient with counts 10, 0: library 10 -> 10.5 / 11 * 1e6 and 0.5 / 11 * 1e6.
+    got = log2_cpm(np.array([[1.0, 3.0], [10.0, 0.0]]), prior_count=0.5)
+    expected = [[math.log2(300000), math.log2(700000)], [math.log2(10.5 / 11 * 1e6), math.log2(0.5 / 11 * 1e6)]]
+    np.testing.assert_allclose(got, expected, rtol=1e-14)
+
+
+def test_m_values_of_published_formula():
+    # Du et al. 2010 (BMC Bioinformatics): M = log2(beta / (1 - beta)); 0.5 -> 0, 0.8 -> log2(4) = 2.
+    got = m_values(np.array([[0.5, 0.8, 0.2]]), beta_floor=1e-6)
+    assert got[0, 0] == 0.0
+    # 0.8 has no exact binary form (it is 0.8 + 4e-17), so 2 holds to one unit in the last place.
+    assert got[0, 1] == pytest.approx(2.0, rel=0, abs=np.spacing(2.0))
+    assert got[0, 2] == pytest.approx(-2.0, rel=0, abs=np.spacing(2.0))
+    np.testing.assert_allclose(m_values(np.array([[0.0, 1.0]]), beta_floor=0.2), [[-2.0, 2.0]], rtol=0, atol=1e-15)
+
+
+def test_quantile_normalisation_worked_example():
+    # Worked by hand from the definition in Bolstad et al. 2003 (Bioinformatics): sort each
+    # array, average the sorted arrays rank by rank, give each value the mean of its rank.
+    # Arrays (here rows) A=(5,2,3,4), B=(4,1,4.5,2), C=(3,4,6,8).
+    # Sorted: A 2,3,4,5; B 1,2,4,4.5; C 3,4,6,8 -> rank means 2, 3, 14/3, 17.5/3.
+    values = np.array([[5, 2, 3, 4], [4, 1, 4.5, 2], [3, 4, 6, 8]], dtype=float)
+    reference = quantile_reference(values)
+    np.testing.assert_allclose(reference, [2, 3, 14 / 3, 17.5 / 3], rtol=1e-14)
+    expected = [[17.5 / 3, 2, 3, 14 / 3], [14 / 3, 2, 17.5 / 3, 3], [2, 3, 14 / 3, 17.5 / 3]]
+    np.testing.assert_allclose(quantile_apply(values, reference), expected, rtol=1e-14)
+
+
+def test_quantile_normalised_patients_share_one_sorted_distribution():
+    # Property stated by Bolstad et al. 2003: after normalisation every array has the same distribution.
+    rng = np.random.default_rng(3)
+    values = rng.lognormal(size=(30, 200)) * rng.uniform(0.5, 3, size=(30, 1))
+    out = quantile_apply(values, quantile_reference(values))
+    sorted_rows = np.sort(out, axis=1)
+    np.testing.assert_allclose(sorted_rows, np.broadcast_to(sorted_rows[0], sorted_rows.shape), rtol=1e-12)
+
+
+def test_knn_imputation_equals_scikit_learn():
+    # Reference library: scikit-learn's KNNImputer on the same log-expression matrix.
+    rng = np.random.default_rng(5)
+    values = rng.normal(size=(40, 25))
+    values[rng.random(values.shape) < 0.1] = np.nan
+    raw = _frame(values)
+    pre = Preprocessor("log_expression", impute="knn", impute_neighbours=4, scale="none", max_missing_fraction=1.0)
+    got = pre.fit_transform(raw)
+    expected = KNNImputer(n_neighbors=4).fit_transform(values)
+    np.testing.assert_allclose(got.to_numpy(), expected, rtol=1e-12)
+
+
+def test_median_imputation_equals_pandas_median():
+    # Reference library: pandas DataFrame.median (skips missing cells).
+    rng = np.random.default_rng(6)
+    values = rng.normal(size=(15, 6))
+    values[rng.random(values.shape) < 0.2] = np.nan
+    raw = _frame(values)
+    got = Preprocessor("log_expression", impute="median", scale="none", max_missing_fraction=1.0).fit_transform(raw)
+    np.testing.assert_allclose(got.to_numpy(), raw.fillna(raw.median()).to_numpy(), rtol=1e-14)
+
+
+def test_zscore_equals_scipy():
+    # Reference library: scipy.stats.zscore (population standard deviation, ddof=0).
+    rng = np.random.default_rng(7)
+    values = rng.normal(3, 2, size=(50, 12))
+    got = Preprocessor("log_expression", impute="none").fit_transform(_frame(values))
+    np.testing.assert_allclose(got.to_numpy(), zscore(values, axis=0), rtol=1e-10, atol=1e-12)
+
+
+def test_top_features_by_variance_and_mad_match_pandas_and_scipy():
+    # Reference libraries: pandas DataFrame.var (ddof=1) and scipy.stats.median_abs_deviation.
+    rng = np.random.default_rng(8)
+    values = rng.normal(size=(30, 40)) * rng.uniform(0.1, 5, size=40)
+    by_variance = top_ranked(values, 7, "variance")
+    expected = pd.Series(values.var(axis=0, ddof=1)).nlargest(7).index
+    assert set(np.flatnonzero(by_variance)) == set(expected)
+    by_mad = top_ranked(values, 7, "mad")
+    expected_mad = np.argsort(-median_abs_deviation(values, axis=0))[:7]
+    assert set(np.flatnonzero(by_mad)) == set(expected_mad)
+
+
+def test_missing_and_variance_filters_drop_the_right_features():
+    values = np.array(
+        [[1.0, 5.0, np.nan, 2.0], [2.0, 5.0, np.nan, 3.0], [3.0, 5.0, 1.0, np.nan], [4.0, 5.0, 2.0, 4.0]]
+    )
+    pre = Preprocessor("log_expression", max_missing_fraction=0.25, impute="none", scale="none").fit(_frame(values))
+    counts = {step["step"]: (step["features_in"], step["features_out"]) for step in pre.steps_}
+    # G2 misses 2 of 4 (> 0.25) and goes; G3 misses 1 of 4 and stays; G1 is constant and goes.
+    assert counts["missing_filter"] == (4, 3)
+    assert counts["variance_filter"] == (3, 2)
+    assert list(pre.output_features_) == ["G0", "G3"]
+
+
+@pytest.mark.parametrize("mode", ["shift", "split"])
+def test_non_negativity(mode):
+    rng = np.random.default_rng(9)
+    raw = _frame(rng.normal(size=(20, 5)))
+    out = Preprocessor("log_expression", non_negative=mode, impute="none").fit_transform(raw)
+    assert (out.to_numpy() >= 0).all()
+    scaled = Preprocessor("log_expression", impute="none").fit_transform(raw).to_numpy()
+    if mode == "split":
+        np.testing.assert_allclose(out.to_numpy()[:, :5] - out.to_numpy()[:, 5:], scaled, atol=1e-12)
+        assert list(out.columns[:2]) == ["G0:pos", "G1:pos"] and out.columns[5] == "G0:neg"
+    else:
+        np.testing.assert_allclose(out.to_numpy(), scaled - scaled.min(axis=0), atol=1e-12)
+        assert (out.min(axis=0) == 0).all()
