@@ -1,1 +1,18 @@
-"""graph layer (see DESIGN.md)."""
+"""graph layer (see DESIGN.md): sparse patient-similarity graphs per modality and their fusion."""
+
+from strataweave.graph.diagnostics import graph_diagnostics, modality_agreement, neighbour_purity
+from strataweave.graph.fusion import fuse_modalities
+from strataweave.graph.laplacian import laplacian
+from strataweave.graph.patient_graph import PatientGraph
+from strataweave.graph.spectral import eigengaps, spectral_embedding
+
+__all__ = [
+    "PatientGraph",
+    "eigengaps",
+    "fuse_modalities",
+    "graph_diagnostics",
+    "laplacian",
+    "modality_agreement",
+    "neighbour_purity",
+    "spectral_embedding",
+]

@@ -1,0 +1,168 @@
+"""fuse_modalities: per-modality patient graphs fused by a rule, without any N x N array.
+
+Order matters: the kernel values are fused first and the graph is cut to each patient's k
+strongest fused edges after. The candidate pairs are the union of every modality's
+k-nearest-neighbour lists; every modality's kernel is evaluated on all of them.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Mapping
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+
+from strataweave.errors import InputError
+from strataweave.graph.checks import check_overlap, check_settings, checked_matrix, metric_per_modality
+from strataweave.graph.diffusion import diffuse
+from strataweave.graph.kernels import default_bandwidth, gaussian, local_scales, scaled_exponential
+from strataweave.graph.metrics import paired_distances, prepare_rows
+from strataweave.graph.neighbours import nearest_neighbours
+from strataweave.graph.pairs import neighbour_pairs, strongest_pairs, symmetric_matrix, unique_pairs
+from strataweave.graph.patient_graph import PatientGraph
+from strataweave.graph.rules import check_rule, combine_values
+
+
+@dataclass(frozen=True)
+class _ModalityKernel:
+    """What one modality needs to evaluate its kernel on any pair of its patients."""
+
+    positions: np.ndarray  # global position of each of its patients
+    neighbours: np.ndarray  # n_v x k nearest neighbours, local positions
+    scales: np.ndarray  # local scale per patient
+    bandwidth: float
+
+
+def fuse_modalities(
+    data: Mapping[str, pd.DataFrame],
+    rule: str = "intersection",
+    quorum: int | None = None,
+    n_neighbours: int = 20,
+    metric: str | Mapping[str, str] = "euclidean",
+    kernel: str = "scaled_exponential",
+    kernel_spread: float = 0.5,
+    bandwidth: float | None = None,
+    diffusion_neighbours: int | None = None,
+    diffusion_iterations: int = 20,
+    progress: Callable[[int], None] | None = None,
+) -> PatientGraph:
+    """One sparse patient graph from several modalities (patients x features DataFrames).
+
+    rule: `intersection` (minimum over the modalities a pair shares), `quorum` (the
+    quorum-th largest), `average` (mean) or `diffusion` (cross-network diffusion, with
+    `diffusion_neighbours` (default n_neighbours) and `diffusion_iterations`).
+    kernel: `scaled_exponential` (local scales, width `kernel_spread`) or `gaussian`
+    (one `bandwidth` per modality, default the median k-nearest-neighbour distance).
+    A patient missing a modality has no edges in that modality's graph. Patients the rule
+    leaves without an edge are connected to their k strongest pairs of the average graph
+    and listed in `fallback_patients`. `progress` is called with the number of finished
+    modality passes (two per modality).
+    """
+    if not isinstance(data, Mapping) or not data:
+        raise InputError(f"modalities: found {type(data).__name__} {data!r:.40}; expected a non-empty dict of DataFrames")
+    names = [str(name) for name in data]
+    frames = dict(zip(names, data.values()))
+    check_rule(rule, quorum, len(names))
+    check_settings(n_neighbours, kernel, kernel_spread, bandwidth)
+    metrics = metric_per_modality(metric, names)
+    matrices = {name: checked_matrix(name, frames[name], metrics[name], n_neighbours) for name in names}
+    check_overlap({name: frames[name].index for name in names})
+    patients = _union_in_order([frames[name].index for name in names])
+    n = len(patients)
+
+    finished = 0
+    kernels: dict[str, _ModalityKernel] = {}
+    for name in names:
+        neighbours, distances = nearest_neighbours(prepare_rows(matrices[name], metrics[name]), n_neighbours)
+        kernels[name] = _ModalityKernel(
+            positions=patients.get_indexer(frames[name].index),
+            neighbours=neighbours,
+            scales=local_scales(distances),
+            bandwidth=bandwidth if bandwidth is not None else default_bandwidth(distances),
+        )
+        finished += 1
+        if progress is not None:
+            progress(finished)
+
+    directed = [neighbour_pairs(kernels[name].positions, kernels[name].neighbours) for name in names]
+    left, right = unique_pairs(np.concatenate([d[0] for d in directed]), np.concatenate([d[1] for d in directed]), n)
+    values = np.full((len(left), len(names)), np.nan)
+    for column, name in enumerate(names):
+        values[:, column] = _kernel_on_pairs(
+            matrices[name], metrics[name], kernels[name], left, right, n, kernel, kernel_spread
+        )
+        finished += 1
+        if progress is not None:
+            progress(finished)
+
+    presence = pd.DataFrame({name: patients.isin(frames[name].index) for name in names}, index=patients)
+    if rule == "diffusion":
+        fused = diffuse(left, right, values, presence.to_numpy(), diffusion_neighbours or n_neighbours,
+                        diffusion_iterations)
+    else:
+        fused = combine_values(values, rule, quorum)
+    weights, fallback = _sparsified_with_fallback(left, right, fused, values, n, n_neighbours)
+    keep = weights > 0
+    return PatientGraph(
+        patients=patients,
+        affinity=symmetric_matrix(left[keep], right[keep], weights[keep], n),
+        rule=rule,
+        fallback_patients=patients[fallback],
+        modality_graphs={
+            name: _modality_graph(directed[column], left, right, values[:, column], n)
+            for column, name in enumerate(names)
+        },
+        presence=presence,
+        parameters={
+            "rule": rule, "quorum": quorum, "n_neighbours": int(n_neighbours), "metric": metrics,
+            "kernel": kernel, "kernel_spread": kernel_spread,
+            "bandwidth": {name: float(kernels[name].bandwidth) for name in names} if kernel == "gaussian" else None,
+            "diffusion_neighbours": (diffusion_neighbours or n_neighbours) if rule == "diffusion" else None,
+            "diffusion_iterations": diffusion_iterations if rule == "diffusion" else None,
+        },
+    )
+
+
+def _union_in_order(indexes: list[pd.Index]) -> pd.Index:
+    """All patients, in order of first appearance across the modalities."""
+    combined = pd.Index(np.concatenate([index.astype(str).to_numpy(dtype=object) for index in indexes]))
+    return pd.Index(combined[~combined.duplicated()], name="patient_id")
+
+
+def _kernel_on_pairs(matrix, metric, modality: _ModalityKernel, left, right, n, kernel, spread) -> np.ndarray:
+    """Kernel value of one modality on every candidate pair; NaN where a patient lacks it."""
+    local = np.full(n, -1, dtype=np.int64)
+    local[modality.positions] = np.arange(len(modality.positions))
+    a, b = local[left], local[right]
+    both = (a >= 0) & (b >= 0)
+    a, b = a[both], b[both]
+    distances = paired_distances(prepare_rows(matrix, metric), a, b)
+    out = np.full(len(left), np.nan)
+    if kernel == "gaussian":
+        out[both] = gaussian(distances, modality.bandwidth)
+    else:
+        out[both] = scaled_exponential(distances, modality.scales[a], modality.scales[b], spread)
+    return out
+
+
+def _sparsified_with_fallback(left, right, fused, values, n, n_neighbours) -> tuple[np.ndarray, np.ndarray]:
+    """Edge weight per candidate pair after the k-strongest cut, and the fallback patient mask."""
+    keep = strongest_pairs(left, right, fused, n, n_neighbours)
+    weights = np.where(keep, fused, 0.0)
+    has_edge = np.zeros(n, dtype=bool)
+    has_edge[left[keep]] = True
+    has_edge[right[keep]] = True
+    lonely = ~has_edge
+    if not lonely.any():
+        return weights, lonely
+    average = combine_values(values, "average")
+    added = strongest_pairs(left, right, average, n, n_neighbours, only=lonely) & ~keep
+    return np.where(added, average, weights), lonely
+
+
+def _modality_graph(directed, left, right, column_values, n):
+    """One modality's own k-nearest-neighbour kernel graph, read from the candidate values."""
+    own_left, own_right = unique_pairs(directed[0], directed[1], n)
+    at = np.searchsorted(left * n + right, own_left * n + own_right)
+    return symmetric_matrix(own_left, own_right, column_values[at], n)
