@@ -1,1 +1,6 @@
-"""factorize layer (see DESIGN.md)."""
+"""factorize layer (see DESIGN.md): graph-regularised joint NMF and the patient labeller."""
+
+from strataweave.factorize.joint_nmf import JointNMF
+from strataweave.factorize.labels import label_patients
+
+__all__ = ["JointNMF", "label_patients"]

@@ -1,0 +1,151 @@
+"""Properties of the fit: monotone objective, masks, projection, warm start, scaling, seeds."""
+
+from __future__ import annotations
+
+import warnings
+
+import numpy as np
+import pytest
+from sklearn.exceptions import ConvergenceWarning
+
+from strataweave.factorize import JointNMF
+
+from conftest import planted_views
+
+pytestmark = pytest.mark.filterwarnings("ignore::sklearn.exceptions.ConvergenceWarning")
+
+
+def _assert_non_increasing(trace):
+    steps = np.diff(trace)
+    assert np.all(steps <= 1e-12 * trace[0]), f"largest increase {steps.max():.3e}"
+
+
+def test_objective_never_increases_with_graph_and_missing_modalities(cohort):
+    # Monotonicity of the majorise-minimise updates (Cai et al. 2011, Lee & Seung 2001).
+    views, _, affinity = cohort
+    views = [v.copy() for v in views]
+    views[0][:15] = np.nan
+    views[2][40:60] = np.nan
+    model = JointNMF(3, graph_weight=2.0, max_iter=150, tol=0, random_state=0)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", ConvergenceWarning)
+        model.fit(views, affinity)
+    assert len(model.objective_) == 150
+    _assert_non_increasing(model.objective_)
+    assert model.objective_[-1] < 0.8 * model.objective_[0]
+
+
+def test_objective_never_increases_with_entry_mask(cohort):
+    views, _, affinity = cohort
+    rng = np.random.default_rng(1)
+    masks = [rng.random(v.shape) > 0.1 for v in views]
+    model = JointNMF(3, graph_weight=1.0, max_iter=60, tol=0, init="random", random_state=2)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", ConvergenceWarning)
+        model.fit(views, affinity, mask=masks)
+    _assert_non_increasing(model.objective_)
+
+
+def test_masked_entries_have_no_influence(cohort):
+    views, _, affinity = cohort
+    rng = np.random.default_rng(5)
+    masks = [rng.random(v.shape) > 0.2 for v in views]
+    changed = [np.where(m, v, rng.random(v.shape) * 100) for v, m in zip(views, masks)]
+    changed[1][~masks[1]] = np.nan
+    fits = [JointNMF(3, graph_weight=0.5, max_iter=40, random_state=0).fit(v, affinity, mask=masks)
+            for v in (views, changed)]
+    np.testing.assert_array_equal(fits[0].patient_factor_, fits[1].patient_factor_)
+    np.testing.assert_array_equal(fits[0].objective_, fits[1].objective_)
+
+
+def test_missing_patient_rows_equal_a_per_patient_mask(cohort):
+    views, _, affinity = cohort
+    with_nan = [v.copy() for v in views]
+    with_nan[1][:20] = np.nan
+    present = np.ones(len(views[1]), dtype=bool)
+    present[:20] = False
+    by_nan = JointNMF(3, max_iter=40, random_state=0).fit(with_nan, affinity)
+    by_mask = JointNMF(3, max_iter=40, random_state=0).fit(views, affinity, mask=[None, present, None])
+    np.testing.assert_allclose(by_nan.patient_factor_, by_mask.patient_factor_, rtol=1e-10)
+
+
+def test_transform_of_training_patients_gives_back_w():
+    # Without a graph the fitted W is (near) the non-negative least-squares W for the fitted H.
+    views, _ = planted_views(n_patients=80, seed=6)
+    views[2][:10] = np.nan
+    model = JointNMF(3, graph_weight=0.0, max_iter=3000, tol=1e-10, random_state=0).fit(views)
+    W = model.transform(views)
+    assert np.linalg.norm(W - model.patient_factor_) <= 1e-3 * np.linalg.norm(model.patient_factor_)
+
+
+def test_warm_start_from_a_fit_converges_at_once(cohort):
+    views, _, affinity = cohort
+    first = JointNMF(3, graph_weight=0.5, max_iter=500, tol=1e-7, random_state=0).fit(views, affinity)
+    again = JointNMF(3, graph_weight=0.5, max_iter=500, tol=1e-7).fit(
+        views, affinity, W_init=first.patient_factor_, H_init=first.components_)
+    assert again.n_iter_ <= 10
+    assert again.objective_[-1] <= first.objective_[-1] * (1 + 1e-6)
+    # Given only the loadings, W is projected (graph included): the fit starts where the first ended.
+    from_loadings = JointNMF(3, graph_weight=0.5, max_iter=5, tol=0).fit(views, affinity, H_init=first.components_)
+    assert from_loadings.objective_[0] <= first.objective_[-1] * (1 + 1e-6)
+
+
+def test_graph_weight_means_the_same_at_any_data_scale(cohort):
+    # alpha_v = 1/||X_v||^2 and the relative graph weight make the fit free of the data's units.
+    views, _, affinity = cohort
+    fits = [JointNMF(3, graph_weight=1.0, max_iter=50, random_state=0).fit([v * c for v in views], affinity)
+            for c in (1.0, 1000.0)]
+    np.testing.assert_allclose(fits[0].objective_, fits[1].objective_, rtol=1e-8)
+    np.testing.assert_allclose(fits[0].patient_factor_, fits[1].patient_factor_, rtol=1e-7, atol=1e-12)
+
+
+def test_loadings_are_normalised(cohort):
+    views, _, affinity = cohort
+    model = JointNMF(3, graph_weight=1.0, max_iter=30, random_state=0).fit(views, affinity)
+    norms = sum(a * np.sum(H**2, axis=1) for a, H in zip(model.modality_weights_, model.components_))
+    np.testing.assert_allclose(norms, 1.0, rtol=1e-12)
+    assert model.effective_graph_weight_ == pytest.approx(120 / affinity.sum())
+
+
+def test_graph_makes_neighbours_more_alike(cohort):
+    views, _, affinity = cohort
+    rough = [JointNMF(3, graph_weight=w, max_iter=100, random_state=0).fit(views, affinity) for w in (0.0, 5.0)]
+    from strataweave.factorize.smoothness import GraphSmoothness
+
+    penalty = GraphSmoothness(affinity, 1.0, 120)
+    roughness = [penalty.per_component(m.patient_factor_).sum() / np.sum(m.patient_factor_**2) for m in rough]
+    assert roughness[1] < 0.8 * roughness[0]
+
+
+def test_restarts_keep_the_lowest_objective(cohort):
+    views, _, affinity = cohort
+    kwargs = dict(graph_weight=0.5, max_iter=30, init="random", random_state=3)
+    best = JointNMF(3, n_restarts=3, **kwargs).fit(views, affinity)
+    single = JointNMF(3, n_restarts=1, **kwargs).fit(views, affinity)
+    assert best.objective_[-1] <= single.objective_[-1]
+    repeat = JointNMF(3, n_restarts=3, **kwargs).fit(views, affinity)
+    np.testing.assert_array_equal(best.patient_factor_, repeat.patient_factor_)
+
+
+def test_max_iter_ends_with_a_warning(cohort):
+    views, _, affinity = cohort
+    with pytest.warns(ConvergenceWarning, match="max_iter=3"):
+        model = JointNMF(3, max_iter=3, tol=0, random_state=0).fit(views, affinity)
+    assert model.n_iter_ == 3
+
+
+def test_float32_fit_is_close_to_float64(cohort):
+    views, _, affinity = cohort
+    fits = {d: JointNMF(3, graph_weight=0.5, max_iter=40, tol=0, dtype=d, random_state=0) for d in ("float32", "float64")}
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", ConvergenceWarning)
+        W = {d: m.fit_transform(views, affinity) for d, m in fits.items()}
+    assert W["float32"].dtype == np.float32
+    assert np.linalg.norm(W["float32"] - W["float64"]) < 1e-3 * np.linalg.norm(W["float64"])
+
+
+def test_reconstruction_error_is_relative_frobenius(cohort):
+    views, _, affinity = cohort
+    model = JointNMF(3, max_iter=50, random_state=0).fit(views, affinity)
+    direct = [np.linalg.norm(X - model.patient_factor_ @ H) / np.linalg.norm(X) for X, H in zip(views, model.components_)]
+    np.testing.assert_allclose(model.reconstruction_error_, direct, rtol=1e-8)
