@@ -1,7 +1,20 @@
 """data layer: read, validate, align, normalise and filter each omics layer (see DESIGN.md)."""
 
+from strataweave.data.cohort import Cohort, Modality, prepare_modality
 from strataweave.data.preprocess import Preprocessor
+from strataweave.data.qc import presence_patterns, qc_summary
 from strataweave.data.readers import ORIENTATIONS, read_clinical, read_matrix
 from strataweave.data.validation import KINDS
 
-__all__ = ["KINDS", "ORIENTATIONS", "Preprocessor", "read_clinical", "read_matrix"]
+__all__ = [
+    "KINDS",
+    "ORIENTATIONS",
+    "Cohort",
+    "Modality",
+    "Preprocessor",
+    "prepare_modality",
+    "presence_patterns",
+    "qc_summary",
+    "read_clinical",
+    "read_matrix",
+]

@@ -1,0 +1,98 @@
+"""Cohort alignment, presence, unmatched patients and the QC tables."""
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from strataweave import InputError
+from strataweave.data import Cohort, Modality, prepare_modality, presence_patterns, qc_summary, read_clinical, read_matrix
+
+CLINICAL_IDS = [f"P{i:02d}" for i in range(12)]
+
+
+def _clinical():
+    return pd.DataFrame({"age_years": np.arange(12.0) + 40}, index=pd.Index(CLINICAL_IDS, name="patient_id"))
+
+
+def _modality(name, ids, n_features=3, kind="log_expression", seed=0):
+    rng = np.random.default_rng(seed)
+    data = pd.DataFrame(rng.normal(size=(len(ids), n_features)), index=ids,
+                        columns=[f"{name}_{j}" for j in range(n_features)])
+    return Modality(name, kind, data, source=f"{name}.tsv")
+
+
+def test_patients_presence_and_aligned_views():
+    rna = _modality("rna", CLINICAL_IDS[:10][::-1])
+    protein = _modality("protein", [" P05 "] + CLINICAL_IDS[6:] + ["ZZ9"], seed=1)
+    cohort = Cohort(_clinical(), [rna, protein], min_patients=3)
+    assert list(cohort.patients) == CLINICAL_IDS  # clinical order, union of modalities
+    presence = cohort.presence
+    assert presence["rna"].sum() == 10 and presence["protein"].sum() == 7
+    assert presence.loc["P05", "protein"] and not presence.loc["P04", "protein"]
+    views = cohort.aligned_views()
+    assert all(view.index.equals(cohort.patients) for view in views)
+    assert views[1].loc["P04"].isna().all()
+    np.testing.assert_array_equal(views[0].loc["P03"].to_numpy(), rna.data.loc["P03"].to_numpy())
+    subset = cohort.aligned_views(["P11", "P00"])
+    assert list(subset[0].index) == ["P11", "P00"]
+
+
+def test_patients_outside_the_clinical_table_are_reported_not_merged():
+    rna = _modality("rna", CLINICAL_IDS[:8] + ["p09", "Q1"])
+    cohort = Cohort(_clinical(), [rna], min_patients=3)
+    assert "p09" not in cohort.patients and "P09" not in cohort.patients
+    reasons = dict(zip(cohort.unmatched["patient_id"], cohort.unmatched["reason"]))
+    assert reasons == {"p09": "differs only in case from clinical 'P09'", "Q1": "not in the clinical table"}
+    assert qc_summary(cohort).loc["rna", "patients_unmatched"] == 2
+
+
+def test_no_shared_patient_is_an_error_naming_the_modality():
+    with pytest.raises(InputError, match=r"^mirna\.tsv \(modality 'mirna'\): patients: found none of 4"):
+        Cohort(_clinical(), [_modality("mirna", ["A", "B", "C", "D"])])
+
+
+def test_too_few_patients_is_an_error():
+    with pytest.raises(InputError, match=r"mirna\.tsv \(modality 'mirna'\): patients: found 4; expected at least 5"):
+        Cohort(_clinical(), [_modality("mirna", CLINICAL_IDS[:4])], min_patients=5)
+
+
+def test_duplicate_modality_name_is_an_error():
+    with pytest.raises(InputError, match="modality 'rna': found the name twice"):
+        Cohort(_clinical(), [_modality("rna", CLINICAL_IDS), _modality("rna", CLINICAL_IDS)], min_patients=3)
+
+
+def test_unknown_kind_is_an_error():
+    with pytest.raises(InputError, match="key 'kind': found 'reads'"):
+        _modality("rna", CLINICAL_IDS, kind="reads")
+
+
+def test_qc_summary_and_presence_patterns_from_files(tmp_path):
+    rng = np.random.default_rng(2)
+    (tmp_path / "clinical.tsv").write_text(
+        "patient_id\tage_years\n" + "".join(f"{p}\t{50 + i}\n" for i, p in enumerate(CLINICAL_IDS))
+    )
+    counts = pd.DataFrame(rng.poisson(30, size=(6, 10)), index=[f"GX{j}" for j in range(6)], columns=CLINICAL_IDS[:10])
+    counts.to_csv(tmp_path / "rna.tsv", sep="\t", index_label="feature")
+    protein = pd.DataFrame(rng.lognormal(size=(8, 5)), index=CLINICAL_IDS[4:], columns=[f"QX{j}" for j in range(5)])
+    protein.iloc[0, 0] = np.nan
+    protein.iloc[1, 0] = np.nan
+    protein.iloc[2, 0] = np.nan
+    protein.to_csv(tmp_path / "protein.csv", index_label="patient_id", na_rep="NA")
+    clinical = read_clinical(tmp_path / "clinical.tsv", "patient_id")
+    rna_raw = read_matrix(tmp_path / "rna.tsv", known_ids=clinical.index, kind="counts")
+    protein_raw = read_matrix(tmp_path / "protein.csv", known_ids=clinical.index, kind="abundance")
+    cohort = Cohort(clinical, [
+        prepare_modality("rna", "counts", rna_raw, source="rna.tsv", patients=clinical.index, top_features=4),
+        prepare_modality("protein", "abundance", protein_raw, source="protein.csv", max_missing_fraction=0.25),
+    ], min_patients=5)
+    qc = qc_summary(cohort)
+    assert qc.loc["rna", "patients"] == 10 and qc.loc["protein", "patients"] == 8
+    assert list(qc.loc["rna", ["features_input", "after_missing_filter", "after_top_features", "features_used"]]) == [6, 6, 4, 4]
+    # QX0 misses 3 of 8 patients (0.375 > 0.25) and is filtered out.
+    assert qc.loc["protein", "after_missing_filter"] == 4
+    assert qc.loc["protein", "missing_fraction"] == pytest.approx(3 / 40)
+    patterns = presence_patterns(cohort)
+    assert patterns["patients"].sum() == cohort.patients.size == 12
+    both = patterns[(patterns["rna"]) & (patterns["protein"])]
+    assert both["patients"].item() == 6 and both["modalities"].item() == 2
+    assert patterns.iloc[0]["modalities"] == 2
