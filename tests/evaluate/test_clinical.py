@@ -1,0 +1,106 @@
+"""Clinical association against Fisher's tea-tasting example, scipy and statsmodels."""
+
+import json
+
+import numpy as np
+import pandas as pd
+import pytest
+from scipy import stats
+from statsmodels.stats.multitest import multipletests
+
+from strataweave import InputError
+from strataweave.evaluate.clinical import associate_clinical
+from strataweave.evaluate.contingency import contingency_test, monte_carlo_p
+
+# Fisher (1935), The Design of Experiments: 8 cups, 4 with milk first; the lady picks 4 and gets
+# 3 right. One-sided p = 17/70; the table's margins are symmetric, so the two-sided p is 34/70.
+TEA_TRUTH = np.array([0, 0, 0, 0, 1, 1, 1, 1])
+TEA_GUESS = np.array([0, 0, 0, 1, 0, 1, 1, 1])
+
+
+def test_tea_tasting_fisher_exact():
+    result = contingency_test(TEA_TRUTH, TEA_GUESS)
+    assert result.test == "fisher_exact"
+    assert result.p_value == pytest.approx(34 / 70)  # Fisher 1935: 2 x 17/70
+
+
+def test_monte_carlo_p_on_tea_tasting_and_against_scipy_permutation():
+    # chi-square ordering equals probability ordering for the tea table, so the exact p is 34/70
+    assert monte_carlo_p(TEA_TRUTH, TEA_GUESS, 4000, random_state=0) == pytest.approx(34 / 70, abs=0.025)
+    rng = np.random.default_rng(0)
+    groups, levels = rng.integers(0, 3, 40), rng.choice(4, 40, p=[0.1, 0.4, 0.4, 0.1])
+    table = np.zeros((3, 4), dtype=int)
+    np.add.at(table, (groups, levels), 1)
+    reference = stats.chi2_contingency(
+        table, correction=False, method=stats.PermutationMethod(n_resamples=4000, rng=1)
+    ).pvalue  # scipy's permutation version of the same test
+    assert monte_carlo_p(groups, levels, 4000, random_state=2) == pytest.approx(reference, abs=0.03)
+
+
+def test_chi_square_and_cramers_v_match_scipy():
+    rng = np.random.default_rng(1)
+    groups, levels = rng.integers(0, 3, 300), rng.integers(0, 3, 300)
+    result = contingency_test(groups, levels)
+    table = pd.crosstab(groups, levels).to_numpy()
+    reference = stats.chi2_contingency(table, correction=False)  # scipy
+    assert result.test == "chi_square"
+    assert result.statistic == pytest.approx(reference.statistic)
+    assert result.p_value == pytest.approx(reference.pvalue)
+    assert result.df == reference.dof
+    assert result.cramers_v == pytest.approx(stats.contingency.association(table, method="cramer"))  # scipy
+
+
+def _cohort(seed=5, n=150):
+    rng = np.random.default_rng(seed)
+    ids = [f"P{i:03d}" for i in range(n)]
+    grouping = pd.Series(rng.integers(1, 4, n), index=ids)
+    clinical = pd.DataFrame(
+        {
+            "age": rng.normal(60, 8, n) + 4 * (grouping.to_numpy() == 3),
+            "sex": rng.choice(["F", "M"], n),
+            "stage": rng.choice(["I", "II", "III", "IV"], n, p=[0.04, 0.46, 0.46, 0.04]),
+            "grade": rng.integers(1, 4, n),
+        },
+        index=ids,
+    )
+    return grouping, clinical
+
+
+def test_association_table_tests_counts_and_adjusts():
+    grouping, clinical = _cohort()
+    clinical.loc[["P000", "P001", "P002"], "age"] = np.nan
+    result = associate_clinical(grouping, clinical, categorical=["grade"], n_monte_carlo=500, random_state=3)
+    table = result.tables["association"].set_index("variable")
+    assert table.loc["age", "test"] == "kruskal_wallis" and table.loc["age", "n_missing"] == 3
+    assert table.loc["sex", "test"] == "chi_square"
+    assert table.loc["stage", "test"] == "chi_square_monte_carlo"  # expected counts below 5
+    assert table.loc["grade", "kind"] == "categorical"
+    known = clinical["age"].notna()
+    samples = [clinical["age"][known & (grouping == g)] for g in (1, 2, 3)]
+    kruskal = stats.kruskal(*samples)  # scipy
+    assert table.loc["age", "statistic"] == pytest.approx(kruskal.statistic)
+    # epsilon squared = H / ((n^2 - 1) / (n + 1)), Tomczak & Tomczak 2014 (recalled from memory)
+    assert table.loc["age", "effect_size"] == pytest.approx(kruskal.statistic * (147 + 1) / (147**2 - 1))
+    assert table.loc["age", "anova_p_value"] == pytest.approx(stats.f_oneway(*samples).pvalue)  # scipy
+    np.testing.assert_allclose(
+        table["p_adjusted"], multipletests(table["p_value"], method="fdr_bh")[1]  # statsmodels
+    )
+    rows = {row["variable"]: row for row in result.summary["variables"]}
+    assert rows["age"]["dropped"] == 3
+    json.dumps(result.summary)
+
+
+def test_untestable_variable_and_unknown_column():
+    grouping, clinical = _cohort()
+    clinical["site"] = "one site"
+    row = associate_clinical(grouping, clinical, variables=["site"]).summary["variables"][0]
+    assert row["p_value"] is None and row["status"].startswith("not tested")
+    with pytest.raises(InputError, match="no column 'bmi'"):
+        associate_clinical(grouping, clinical, variables=["bmi"])
+
+
+def test_monte_carlo_is_seeded():
+    grouping, clinical = _cohort()
+    first = associate_clinical(grouping, clinical, variables=["stage"], n_monte_carlo=300, random_state=9)
+    again = associate_clinical(grouping, clinical, variables=["stage"], n_monte_carlo=300, random_state=9)
+    assert first.summary == again.summary
