@@ -21,12 +21,13 @@ def test_lowest_pac_wins_when_it_stands_alone():
     assert choice.rule == RULE and "min_size" in RULE
 
 
-def test_near_ties_in_pac_go_to_the_most_stable_then_the_smaller_count():
+def test_near_ties_in_pac_go_to_the_largest_equally_crisp_count():
     table = criteria([0.05, 0.04, 0.045, 0.30], [0.80, 0.85, 0.95, 0.5], [80, 40, 30, 20])
-    assert recommend_count(table, min_size=10, pac_tolerance=0.02).count == 4
+    choice = recommend_count(table, min_size=10, pac_tolerance=0.02)
+    assert choice.count == 4 and "(equally crisp: 2, 3)" in choice.reason
     assert recommend_count(table, min_size=10, pac_tolerance=0.0).count == 3
-    tied = criteria([0.01, 0.01, 0.2, 0.3], [0.9, 0.9, 0.5, 0.5], [80, 40, 30, 20])
-    assert recommend_count(tied, min_size=10).count == 2
+    merged_as_crisp = criteria([0.0, 0.0, 0.2, 0.3], [1.0, 0.99, 0.5, 0.5], [80, 40, 30, 20])
+    assert recommend_count(merged_as_crisp, min_size=10).count == 3
 
 
 def test_never_a_count_whose_smallest_subtype_is_below_min_size():

@@ -4,22 +4,30 @@ recommendation, baselines, partition comparison and parallel backends."""
 from strataweave.subtypes.compare import PartitionComparison, compare_partitions, split_flow
 from strataweave.subtypes.consensus import consensus_matrix, consensus_with_subtypes, core_flags
 from strataweave.subtypes.criteria import cophenetic_correlation, pac, resample_stability
-from strataweave.subtypes.parallel import ParallelSettings, run_tasks
+from strataweave.subtypes.parallel import ParallelSettings, TaskRunner, run_tasks
 from strataweave.subtypes.recommend import RULE, Recommendation, recommend_count
+from strataweave.subtypes.result import SweepResult
+from strataweave.subtypes.settings import SweepSettings
+from strataweave.subtypes.sweep import planned_tasks, sweep_subtype_counts
 
 __all__ = [
     "RULE",
     "ParallelSettings",
     "PartitionComparison",
     "Recommendation",
+    "SweepResult",
+    "SweepSettings",
+    "TaskRunner",
     "compare_partitions",
     "consensus_matrix",
     "consensus_with_subtypes",
     "cophenetic_correlation",
     "core_flags",
     "pac",
+    "planned_tasks",
     "recommend_count",
     "resample_stability",
     "run_tasks",
     "split_flow",
+    "sweep_subtype_counts",
 ]

@@ -10,7 +10,7 @@ an in-process Dask cluster then share one setting instead of racing to set and r
 from __future__ import annotations
 
 from collections.abc import Callable, Iterator, Sequence
-from contextlib import contextmanager
+from contextlib import ExitStack, contextmanager
 from dataclasses import dataclass
 from typing import Any
 
@@ -89,6 +89,55 @@ def _dask_client(settings: ParallelSettings) -> Iterator[Any]:
             cluster.close()
 
 
+class TaskRunner:
+    """Runs batches of tasks on one backend; a Dask cluster lives as long as the runner.
+
+    Use as a context manager so that several batches (e.g. full-data fits, then resamples)
+    share one cluster.
+    """
+
+    def __init__(self, settings: ParallelSettings = ParallelSettings()):
+        self.settings = settings
+        self._stack: ExitStack | None = None
+
+    def __enter__(self) -> "TaskRunner":
+        self._stack = ExitStack()
+        self._stack.enter_context(threadpool_limits(limits=1))
+        if self.settings.backend == "dask":
+            self._stack.enter_context(_dask_client(self.settings))
+        return self
+
+    def __exit__(self, *exc_info) -> None:
+        self._stack.close()
+        self._stack = None
+
+    def map(
+        self,
+        function: Callable[[Any, Any], Any],
+        shared: Any,
+        task_params: Sequence[Any],
+        progress: Callable[[int], None] | None = None,
+        done_before: int = 0,
+    ) -> list[Any]:
+        """``[function(shared, p) for p in task_params]`` on the backend, in order.
+
+        `function` must be importable at module level (it travels to other processes).
+        `shared` holds the large inputs, sent once per worker where the backend allows
+        (memory-mapped for local processes, scattered for Dask). `progress`, if given, is
+        called with ``done_before`` plus the number of finished tasks after each one.
+        """
+        if self._stack is None:
+            raise RuntimeError("TaskRunner.map called outside its 'with' block")
+        calls = (joblib.delayed(_single_threaded)(function, shared, params) for params in task_params)
+        if self.settings.backend == "dask":
+            with joblib.parallel_config(backend="dask", scatter=[shared]):
+                return _collect(joblib.Parallel(return_as="generator")(calls), progress, done_before)
+        n_jobs = 1 if self.settings.backend == "serial" else self.settings.n_jobs
+        backend = "sequential" if n_jobs == 1 else "loky"
+        parallel = joblib.Parallel(n_jobs=n_jobs, backend=backend, return_as="generator")
+        return _collect(parallel(calls), progress, done_before)
+
+
 def run_tasks(
     function: Callable[[Any, Any], Any],
     shared: Any,
@@ -96,27 +145,15 @@ def run_tasks(
     settings: ParallelSettings = ParallelSettings(),
     progress: Callable[[int], None] | None = None,
 ) -> list[Any]:
-    """``[function(shared, p) for p in task_params]``, run on the chosen backend, in order.
-
-    `function` must be importable at module level (it travels to other processes). `shared`
-    holds the large inputs, sent once per worker where the backend allows (memory-mapped for
-    local processes, scattered for Dask). `progress`, if given, is called with the number of
-    finished tasks after each one.
-    """
-    calls = (joblib.delayed(_single_threaded)(function, shared, params) for params in task_params)
-    with threadpool_limits(limits=1):
-        if settings.backend == "dask":
-            with _dask_client(settings), joblib.parallel_config(backend="dask", scatter=[shared]):
-                return _collect(joblib.Parallel(return_as="generator")(calls), progress)
-        n_jobs = 1 if settings.backend == "serial" else settings.n_jobs
-        backend = "sequential" if n_jobs == 1 else "loky"
-        return _collect(joblib.Parallel(n_jobs=n_jobs, backend=backend, return_as="generator")(calls), progress)
+    """One batch of tasks on a runner of its own (see :meth:`TaskRunner.map`)."""
+    with TaskRunner(settings) as runner:
+        return runner.map(function, shared, task_params, progress)
 
 
-def _collect(results: Iterator[Any], progress: Callable[[int], None] | None) -> list[Any]:
+def _collect(results: Iterator[Any], progress: Callable[[int], None] | None, done_before: int) -> list[Any]:
     collected = []
     for result in results:
         collected.append(result)
         if progress is not None:
-            progress(len(collected))
+            progress(done_before + len(collected))
     return collected

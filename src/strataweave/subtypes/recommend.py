@@ -12,10 +12,15 @@ from strataweave.errors import InputError
 RULE = (
     "Only counts whose smallest subtype has at least min_size patients are eligible. Among "
     "them, the counts whose PAC lies within pac_tolerance of the lowest eligible PAC are "
-    "equally crisp; of these the one with the highest stability (mean ARI of resample labels "
-    "against full-data labels) is chosen, and a remaining tie goes to the smaller count. "
-    "A count chosen by the user replaces the rule's choice but must also be eligible."
+    "equally crisp, and the largest of these is chosen: resamples keep splitting the patients "
+    "the same way at that finer count, which noise does not do. A count chosen by the user "
+    "replaces the rule's choice but must also be eligible."
 )
+# Why the largest of the equally crisp counts: merging two real subtypes is often just as
+# consistent across resamples as keeping them apart (PAC near 0 for both counts), while
+# splitting one homogeneous group is not (its patients change sides between resamples and
+# PAC rises). A crisp finer partition is therefore evidence of structure; min_size keeps
+# the rule from rewarding a tiny split-off group.
 
 
 @dataclass(frozen=True)
@@ -49,9 +54,7 @@ def rule_choice(criteria: pd.DataFrame, min_size: int, pac_tolerance: float) -> 
     pac = eligible["pac"].fillna(np.inf)
     best_pac = float(pac.min())
     near = eligible[pac <= best_pac + pac_tolerance]
-    stability = near["stability"].fillna(-np.inf)
-    top = near[stability == stability.max()]
-    count = int(top.index.min())
+    count = int(near.index.max())
     row = criteria.loc[count]
     if len(near) == 1:
         reason = (
@@ -61,10 +64,9 @@ def rule_choice(criteria: pd.DataFrame, min_size: int, pac_tolerance: float) -> 
     else:
         others = ", ".join(str(int(k)) for k in near.index if k != count)
         reason = (
-            f"{count} subtypes: PAC {row['pac']:.3f} is within {pac_tolerance:g} of the lowest "
-            f"({best_pac:.3f}) among counts whose smallest subtype has at least {min_size} patients, "
-            f"and its stability (mean ARI {row['stability']:.3f}) is the highest of those counts "
-            f"(also near: {others})."
+            f"{count} subtypes: the largest count whose PAC ({row['pac']:.3f}) is within "
+            f"{pac_tolerance:g} of the lowest ({best_pac:.3f}) among counts whose smallest subtype "
+            f"has at least {min_size} patients (equally crisp: {others})."
         )
     return count, reason
 
@@ -73,10 +75,10 @@ def recommend_count(
     criteria: pd.DataFrame,
     *,
     min_size: int,
-    pac_tolerance: float = 0.02,
+    pac_tolerance: float = 0.01,
     user_count: int | None = None,
 ) -> Recommendation:
-    """Apply RULE to a criteria table indexed by count (columns pac, stability, smallest_subtype)."""
+    """Apply RULE to a criteria table indexed by count (columns pac and smallest_subtype)."""
     if pac_tolerance < 0:
         raise InputError(f"pac_tolerance: found {pac_tolerance}; expected a number >= 0")
     count, reason = rule_choice(criteria, min_size, pac_tolerance)

@@ -1,0 +1,132 @@
+"""What a sweep of subtype counts returns, and its JSON-ready form for results.json."""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, replace
+
+import numpy as np
+import pandas as pd
+
+from strataweave.factorize import JointNMF
+from strataweave.subtypes.baselines import BASELINE_METHODS
+from strataweave.subtypes.recommend import Recommendation, recommend_count
+from strataweave.subtypes.settings import SweepSettings
+
+#: Direction of each criterion for plots: True higher is better, False lower, None neither.
+HIGHER_IS_BETTER = {
+    "pac": False,
+    "cophenetic": True,
+    "silhouette": True,
+    "eigengap": True,
+    "reconstruction_error": None,  # falls with every added component: read its elbow, not its size
+    "smallest_subtype": None,
+    "stability": True,
+}
+
+
+def json_number(value) -> float | int | None:
+    """A JSON-safe number: NaN and infinities become None, numpy scalars plain Python."""
+    if value is None:
+        return None
+    if isinstance(value, (int, np.integer)) and not isinstance(value, bool):
+        return int(value)
+    value = float(value)
+    return value if math.isfinite(value) else None
+
+
+def subtype_names(count: int) -> list[str]:
+    """Display names of subtype codes 0..count-1."""
+    return [f"S{code + 1}" for code in range(count)]
+
+
+@dataclass(frozen=True)
+class SweepResult:
+    """Everything the sweep found, keyed by subtype count.
+
+    criteria: one row per count, one column per criterion (see HIGHER_IS_BETTER).
+    consensus: count -> N x N float32 consensus matrix (NaN for pairs never drawn together).
+    assignments: count -> patients x [subtype, confidence, own_consensus, core, score_0..]
+    from the full-data fit; confidence is the labeller's margin in [0, 1], own_consensus the
+    patient's mean consensus with its subtype, core whether that exceeds core_threshold.
+    resample_labels: count -> resamples x N labels (-1 = not drawn).
+    baseline_labels: count -> patients x baseline method labels.
+    baselines: one row per (count, method): ARI and NMI against the joint subtypes,
+    silhouette on the fused graph embedding, smallest subtype.
+    flow: how subtypes split from each count to the next one swept.
+    models: count -> the full-data JointNMF. unconverged: fits that stopped at max_iter.
+    """
+
+    patients: pd.Index
+    counts: list[int]
+    criteria: pd.DataFrame
+    consensus: dict[int, np.ndarray]
+    assignments: dict[int, pd.DataFrame]
+    resample_labels: dict[int, np.ndarray]
+    baseline_labels: dict[int, pd.DataFrame]
+    baselines: pd.DataFrame
+    flow: pd.DataFrame
+    models: dict[int, JointNMF]
+    recommendation: Recommendation
+    settings: SweepSettings
+    unconverged: int
+
+    @property
+    def count(self) -> int:
+        """The chosen subtype count (the rule's, or the user's)."""
+        return self.recommendation.count
+
+    @property
+    def labels(self) -> pd.Series:
+        """Final subtype codes at the chosen count, indexed by patient."""
+        return self.assignments[self.count]["subtype"]
+
+    def with_user_count(self, count: int | None) -> "SweepResult":
+        """The same sweep with the count fixed by the user (None: back to the rule)."""
+        settings = replace(self.settings, user_count=count)
+        choice = recommend_count(
+            self.criteria, min_size=settings.min_size, pac_tolerance=settings.pac_tolerance, user_count=count
+        )
+        return replace(self, settings=settings, recommendation=choice)
+
+    def to_dict(self) -> dict:
+        """results.json sections: subtype_count, selection, subtypes, baselines (NaN as None)."""
+        final = self.assignments[self.count]
+        sizes = np.bincount(final["subtype"].to_numpy(), minlength=self.count)
+        at_final = self.baselines[self.baselines["count"] == self.count]
+        return {
+            "subtype_count": int(self.count),
+            "selection": {
+                "counts": [int(k) for k in self.counts],
+                "criteria": {
+                    name: [json_number(v) for v in self.criteria[name]] for name in self.criteria.columns
+                },
+                "higher_is_better": {name: HIGHER_IS_BETTER.get(name) for name in self.criteria.columns},
+                "recommended": int(self.recommendation.rule_count),
+                "reason": self.recommendation.reason,
+                "overridden": self.recommendation.chosen_by == "user",
+                "rule": self.recommendation.rule,
+                "flow": [
+                    {key: json_number(row[key]) for key in ("count", "source", "target", "patients")}
+                    for row in self.flow.to_dict("records")
+                ],
+                "settings": self.settings.to_dict(),
+                "unconverged_fits": int(self.unconverged),
+            },
+            "subtypes": {
+                "labels": subtype_names(self.count),
+                "sizes": [int(s) for s in sizes],
+                "core_threshold": float(self.settings.core_threshold),
+                "core_patients": int(final["core"].sum()),
+            },
+            "baselines": [
+                {
+                    "method": BASELINE_METHODS[row["method"]],
+                    "ari": json_number(row["ari"]),
+                    "nmi": json_number(row["nmi"]),
+                    "silhouette": json_number(row["silhouette"]),
+                    "smallest_subtype": json_number(row["smallest_subtype"]),
+                }
+                for row in at_final.to_dict("records")
+            ],
+        }

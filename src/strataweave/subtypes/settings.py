@@ -1,0 +1,72 @@
+"""The knobs of a subtype-count sweep, checked once so bad input fails before any work."""
+
+from __future__ import annotations
+
+from collections.abc import Iterable
+from dataclasses import asdict, dataclass
+
+from strataweave.errors import InputError
+from strataweave.subtypes.criteria import check_window
+
+
+@dataclass(frozen=True)
+class SweepSettings:
+    """How the sweep resamples and judges.
+
+    n_resamples: resamples per count (each draws `fraction` of the patients and, optionally,
+    `feature_fraction` of each modality's features). pac_window: consensus values counted as
+    ambiguous. min_size: smallest subtype size a recommended count may have. pac_tolerance:
+    PAC differences below it count as ties (see recommend.RULE). core_threshold: mean
+    consensus with the own subtype above which a patient is core. user_count: a count fixed
+    by the user instead of the rule. resample_restarts: NMF restarts per resample.
+    warm_start: start each resample from the full-data factors of its count (faster, but the
+    resamples then share a starting point, which can make the consensus look crisper).
+    """
+
+    n_resamples: int = 50
+    fraction: float = 0.8
+    feature_fraction: float = 1.0
+    pac_window: tuple[float, float] = (0.1, 0.9)
+    pac_tolerance: float = 0.01
+    min_size: int = 10
+    core_threshold: float = 0.8
+    user_count: int | None = None
+    resample_restarts: int = 1
+    warm_start: bool = False
+
+    def __post_init__(self) -> None:
+        object.__setattr__(self, "pac_window", check_window(self.pac_window))
+        for name in ("fraction", "feature_fraction"):
+            value = getattr(self, name)
+            if not 0.0 < value <= 1.0:
+                raise InputError(f"{name}: found {value}; expected a fraction in (0, 1]")
+        for name, lowest in (("n_resamples", 2), ("min_size", 1), ("resample_restarts", 1)):
+            value = getattr(self, name)
+            if isinstance(value, bool) or not isinstance(value, int) or value < lowest:
+                raise InputError(f"{name}: found {value!r}; expected a whole number >= {lowest}")
+        if not 0.0 <= self.core_threshold <= 1.0:
+            raise InputError(f"core_threshold: found {self.core_threshold}; expected a value in [0, 1]")
+        if self.pac_tolerance < 0:
+            raise InputError(f"pac_tolerance: found {self.pac_tolerance}; expected a value >= 0")
+
+    def to_dict(self) -> dict:
+        """Plain JSON-ready parameters."""
+        values = asdict(self)
+        values["pac_window"] = list(self.pac_window)
+        return values
+
+
+def check_counts(counts: Iterable[int], n_patients: int, min_size: int) -> list[int]:
+    """Sorted distinct subtype counts, each >= 2 and able to give every subtype `min_size` patients."""
+    found = list(counts)
+    if not found:
+        raise InputError("counts: found none; expected subtype counts such as 2..8")
+    for count in found:
+        if isinstance(count, bool) or not isinstance(count, int) or count < 2:
+            raise InputError(f"counts: found {count!r}; expected whole numbers >= 2")
+        if count * min_size > n_patients:
+            raise InputError(
+                f"counts: found {count}, which leaves fewer than min_size={min_size} patients per subtype "
+                f"among {n_patients}; expected counts up to {n_patients // min_size}"
+            )
+    return sorted(set(found))

@@ -1,0 +1,124 @@
+"""The independent tasks of a sweep: one full-data fit per count, one resample across counts.
+
+Both are module-level functions of (shared inputs, task) so that any backend can ship them.
+Every random choice comes from the task's own seed, so results do not depend on where or in
+which order the tasks run.
+"""
+
+from __future__ import annotations
+
+import math
+import warnings
+from dataclasses import dataclass
+
+import numpy as np
+import scipy.sparse as sp
+from sklearn.exceptions import ConvergenceWarning
+
+from strataweave.factorize import JointNMF, label_patients
+from strataweave.seeding import child_seeds
+from strataweave.subtypes.baselines import kmeans_labels, spectral_labels
+from strataweave.subtypes.consensus import NOT_DRAWN
+from strataweave.subtypes.settings import SweepSettings
+
+
+@dataclass(frozen=True)
+class SweepInputs:
+    """What every task reads: modalities (name -> patients x features, all-NaN rows for a
+    missing modality), the fused affinity, the counts, JointNMF keyword arguments, the
+    sweep settings, the scaled concatenation for the k-means baseline, and, for warm starts,
+    the full-data factors per count."""
+
+    views: dict[str, np.ndarray]
+    affinity: sp.csr_matrix
+    counts: list[int]
+    factorization: dict
+    settings: SweepSettings
+    concatenated: np.ndarray
+    warm_factors: dict[int, tuple[np.ndarray, list[np.ndarray]]] | None = None
+
+
+@dataclass
+class FullFit:
+    """The full-data fit at one count: model, labels, confidence, scores, baseline labels."""
+
+    count: int
+    model: JointNMF
+    labels: np.ndarray
+    confidence: np.ndarray
+    scores: np.ndarray
+    baseline_labels: dict[str, np.ndarray]
+    unconverged: int
+
+
+@dataclass
+class ResampleFit:
+    """One resample: labels per count (counts x patients, NOT_DRAWN where not drawn)."""
+
+    labels: np.ndarray
+    unconverged: int
+
+
+def _fit_and_label(views, affinity, count, factorization, seed, warm=None):
+    """JointNMF at `count`, then labels; also how many fits stopped at max_iter."""
+    nmf_seed, label_seed = child_seeds(seed, 2)
+    model = JointNMF(n_components=count, random_state=nmf_seed, **factorization)
+    W_init, H_init = warm if warm is not None else (None, None)
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always", ConvergenceWarning)
+        model.fit(views, graph=affinity, W_init=W_init, H_init=H_init)
+    unconverged = sum(issubclass(w.category, ConvergenceWarning) for w in caught)
+    labels, confidence, scores = label_patients(model.patient_factor_, count, random_state=label_seed)
+    return model, labels, confidence, scores, unconverged
+
+
+def fit_full_data(shared: SweepInputs, task: tuple[int, int]) -> FullFit:
+    """Joint NMF on all patients at one count, plus the two baselines at that count."""
+    count, seed = task
+    fit_seed, spectral_seed, kmeans_seed = child_seeds(seed, 3)
+    model, labels, confidence, scores, unconverged = _fit_and_label(
+        shared.views, shared.affinity, count, shared.factorization, fit_seed
+    )
+    baselines = {
+        "spectral": spectral_labels(shared.affinity, count, spectral_seed),
+        "kmeans": kmeans_labels(shared.concatenated, count, kmeans_seed),
+    }
+    return FullFit(count, model, labels, confidence, scores, baselines, unconverged)
+
+
+def _draw(rng: np.random.Generator, size: int, fraction: float, at_least: int) -> np.ndarray:
+    """Sorted positions of round(fraction * size) items (never fewer than `at_least`)."""
+    keep = min(size, max(at_least, math.ceil(fraction * size)))
+    return np.sort(rng.choice(size, size=keep, replace=False))
+
+
+def fit_resample(shared: SweepInputs, task: tuple[int, int]) -> ResampleFit:
+    """Draw patients (and features), restrict the graph to them, fit and label every count.
+
+    Seed layout: child 0 draws the resample, child k seeds count k, so the draw does not
+    depend on the counts and a count's fit does not depend on the other counts.
+    """
+    _, seed = task
+    settings, counts = shared.settings, shared.counts
+    seeds = child_seeds(seed, max(counts) + 1)
+    rng = np.random.default_rng(seeds[0])
+    n_patients = shared.affinity.shape[0]
+    rows = _draw(rng, n_patients, settings.fraction, max(counts) + 1)
+    columns = {
+        name: _draw(rng, values.shape[1], settings.feature_fraction, max(counts) + 1)
+        for name, values in shared.views.items()
+    }
+    views = {name: values[rows][:, columns[name]] for name, values in shared.views.items()}
+    affinity = shared.affinity[rows][:, rows]
+    factorization = {**shared.factorization, "n_restarts": settings.resample_restarts}
+    labels = np.full((len(counts), n_patients), NOT_DRAWN, dtype=np.int16)
+    unconverged = 0
+    for position, count in enumerate(counts):
+        warm = None
+        if shared.warm_factors is not None:
+            W, loadings = shared.warm_factors[count]
+            warm = (W[rows], [H[:, columns[name]] for name, H in zip(views, loadings)])
+        _, drawn_labels, _, _, stopped = _fit_and_label(views, affinity, count, factorization, seeds[count], warm)
+        labels[position, rows] = drawn_labels
+        unconverged += stopped
+    return ResampleFit(labels, unconverged)

@@ -1,0 +1,152 @@
+"""The sweep of subtype counts on a small invented cohort."""
+
+import json
+from dataclasses import replace
+
+import numpy as np
+import pytest
+import scipy.sparse as sp
+from scipy.cluster.hierarchy import average, cophenet
+from scipy.spatial.distance import squareform
+from sklearn.metrics import adjusted_rand_score, silhouette_score
+
+from cohort import prepared_cohort
+from strataweave import CAUTION, InputError
+from strataweave.graph import spectral_embedding
+from strataweave.report.contract import check_results
+from strataweave.subtypes.consensus import NOT_DRAWN
+from strataweave.subtypes.parallel import ParallelSettings
+from strataweave.subtypes.settings import SweepSettings
+from strataweave.subtypes.sweep import planned_tasks, sweep_subtype_counts
+
+COUNTS = [2, 3, 4]
+SETTINGS = SweepSettings(n_resamples=4, min_size=5)
+FAST_NMF = {"max_iter": 60, "init": "random"}
+
+
+@pytest.fixture(scope="module")
+def cohort():
+    return prepared_cohort(n_patients=90, n_subtypes=3, seed=3, top_features=40)
+
+
+@pytest.fixture(scope="module")
+def ticks():
+    return []
+
+
+@pytest.fixture(scope="module")
+def result(cohort, ticks):
+    return sweep_subtype_counts(
+        cohort.views, cohort.graph, COUNTS, settings=SETTINGS, factorization=FAST_NMF, random_state=1,
+        progress=ticks.append,
+    )
+
+
+def test_one_row_per_count_and_matching_shapes(result, cohort, ticks):
+    n = len(cohort.graph.patients)
+    assert ticks == list(range(1, planned_tasks(COUNTS, SETTINGS) + 1))
+    assert list(result.criteria.index) == COUNTS
+    assert list(result.criteria.columns) == [
+        "pac", "cophenetic", "silhouette", "eigengap", "reconstruction_error", "smallest_subtype", "stability"
+    ]
+    for k in COUNTS:
+        consensus = result.consensus[k]
+        assert consensus.shape == (n, n) and consensus.dtype == np.float32
+        np.testing.assert_array_equal(consensus, consensus.T)
+        drawn = result.resample_labels[k] != NOT_DRAWN
+        assert (drawn.sum(axis=1) == 72).all()  # ceil(0.8 * 90) patients per resample
+        assert np.all(np.diag(consensus)[drawn.any(axis=0)] == 1.0)
+        table = result.assignments[k]
+        assert table.index.equals(cohort.graph.patients)
+        assert sorted(table["subtype"].unique()) == list(range(k))
+        assert table["confidence"].between(0, 1).all()
+        assert (table["core"] == (table["own_consensus"] > SETTINGS.core_threshold)).all()
+        assert list(result.baseline_labels[k].columns) == ["spectral", "kmeans"]
+    for k in COUNTS[:-1]:
+        flow = result.flow[result.flow["count"] == k]
+        assert flow["patients"].sum() == n
+    assert result.models[result.count].patient_factor_.shape == (n, result.count)
+
+
+def test_criteria_agree_with_reference_libraries(result, cohort):
+    for k in COUNTS:
+        labels = result.resample_labels[k]
+        full = result.assignments[k]["subtype"].to_numpy()
+        # reference: scikit-learn adjusted_rand_score on the drawn patients of each resample
+        expected = np.mean([adjusted_rand_score(row[row >= 0], full[row >= 0]) for row in labels])
+        assert result.criteria.loc[k, "stability"] == pytest.approx(expected)
+        distances = squareform(1.0 - np.nan_to_num(result.consensus[k].astype(float), nan=0.5), checks=False)
+        # reference: scipy.cluster.hierarchy.cophenet on the average-linkage tree
+        assert result.criteria.loc[k, "cophenetic"] == pytest.approx(cophenet(average(distances), distances)[0])
+        embedding = spectral_embedding(cohort.graph.affinity, n_dims=max(COUNTS))
+        # reference: scikit-learn silhouette_score in the spectral embedding of the fused graph
+        assert result.criteria.loc[k, "silhouette"] == pytest.approx(silhouette_score(embedding, full))
+        assert result.criteria.loc[k, "smallest_subtype"] == np.bincount(full).min()
+
+
+def test_to_dict_is_strict_json_and_meets_the_report_contract(result):
+    section = result.to_dict()
+    document = json.loads(json.dumps(section, allow_nan=False))
+    document.update(caution=CAUTION, cohort={"patients": len(result.patients), "modalities": []})
+    check_results(document)
+    assert document["subtype_count"] == result.count
+    assert document["selection"]["reason"] == result.recommendation.reason
+    assert sum(document["subtypes"]["sizes"]) == len(result.patients)
+    assert [row["method"] for row in document["baselines"]] == [
+        "spectral clustering on the fused graph", "k-means on the concatenated scaled modalities"
+    ]
+
+
+def test_user_count_overrides_the_rule_but_not_min_size(result):
+    other = next(k for k in COUNTS if k != result.count)
+    chosen = result.with_user_count(other)
+    assert (chosen.count, chosen.recommendation.rule_count) == (other, result.count)
+    assert chosen.to_dict()["selection"]["overridden"] is True
+    assert chosen.labels.equals(result.assignments[other]["subtype"])
+    assert chosen.with_user_count(None).count == result.count
+    smallest = result.criteria["smallest_subtype"]
+    strict = replace(result, settings=replace(result.settings, min_size=int(smallest.max())))
+    too_small = int(smallest.idxmin())
+    with pytest.raises(InputError, match=f"found {too_small}, whose smallest subtype has {smallest.min()} patients"):
+        strict.with_user_count(too_small)
+
+
+@pytest.mark.slow
+def test_labels_are_identical_on_serial_and_dask_and_warm_starts_run(result, cohort):
+    dask = sweep_subtype_counts(
+        cohort.views, cohort.graph, COUNTS, settings=SETTINGS, factorization=FAST_NMF, random_state=1,
+        parallel=ParallelSettings("dask", n_jobs=2, local_cluster_processes=False),
+    )
+    for k in COUNTS:
+        np.testing.assert_array_equal(dask.resample_labels[k], result.resample_labels[k])
+        assert dask.assignments[k].equals(result.assignments[k])
+    warm = sweep_subtype_counts(
+        cohort.views, cohort.graph, [3], settings=SweepSettings(n_resamples=3, min_size=5, warm_start=True),
+        factorization=FAST_NMF, random_state=1,
+    )
+    assert (warm.resample_labels[3] != NOT_DRAWN).sum(axis=1).tolist() == [72, 72, 72]
+
+
+@pytest.mark.parametrize(
+    "counts, settings, message",
+    [
+        ([1, 2], SETTINGS, "counts: found 1; expected whole numbers >= 2"),
+        ([2, 10], SweepSettings(min_size=10), "counts: found 10, which leaves fewer than min_size=10"),
+    ],
+)
+def test_bad_counts_are_input_errors(cohort, counts, settings, message):
+    with pytest.raises(InputError, match=message):
+        sweep_subtype_counts(cohort.views, cohort.graph, counts, settings=settings)
+
+
+def test_bad_settings_and_misaligned_inputs_are_input_errors(cohort):
+    for fraction in (0.0, 1.5):
+        with pytest.raises(InputError, match=f"fraction: found {fraction}; expected a fraction in"):
+            SweepSettings(fraction=fraction)
+    with pytest.raises(InputError, match="graph: found"):
+        sweep_subtype_counts(cohort.views, sp.identity(5, format="csr"), COUNTS)
+    shuffled = cohort.graph.restrict(cohort.graph.patients[::-1])
+    with pytest.raises(InputError, match="graph: patients differ"):
+        sweep_subtype_counts(cohort.views, shuffled, COUNTS)
+    with pytest.raises(InputError, match="factorization: found 'n_components'"):
+        sweep_subtype_counts(cohort.views, cohort.graph, COUNTS, factorization={"n_components": 3})
