@@ -37,7 +37,8 @@ def _consensus(codes: np.ndarray, rng: np.random.Generator) -> np.ndarray:
 
 
 def make_results(modality_names=("rna", "methylation"), feature_prefix="FX", title="Fictional biobank run",
-                 show_patient_ids=False, survival=True, markers=True, n=60) -> tuple[dict, dict]:
+                 show_patient_ids=False, survival=True, markers=True, n=60,
+                 clinical_name="stage") -> tuple[dict, dict]:
     """results.json content and figure_data arrays for an invented 3-subtype run of `n` patients."""
     rng = np.random.default_rng(7)
     codes = np.sort(rng.integers(0, 3, size=n))
@@ -150,7 +151,7 @@ def make_results(modality_names=("rna", "methylation"), feature_prefix="FX", tit
         arrays["km_at_risk_time"] = np.array([0.0, 12.0, 24.0, 36.0, 48.0])
         arrays["km_at_risk"] = np.array([[20, 17, 12, 8, 3], [22, 15, 9, 4, 1], [18, 16, 14, 11, 7]])
     results["clinical"] = [
-        {"variable": "stage", "test": "chi-square", "effect_size": 0.31, "effect_size_name": "Cramer's V",
+        {"variable": clinical_name, "test": "chi-square", "effect_size": 0.31, "effect_size_name": "Cramer's V",
          "p_value": 0.004, "p_adjusted": 0.008, "dropped": 2},
         {"variable": "age_years", "test": "Kruskal-Wallis", "effect_size": 0.02,
          "effect_size_name": "epsilon squared", "p_value": 0.5, "p_adjusted": 0.5, "dropped": 0},

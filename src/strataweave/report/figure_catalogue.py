@@ -1,0 +1,100 @@
+"""Every figure of the report: its file name, section, caption, size and when it applies."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from functools import partial
+from pathlib import Path
+from typing import Callable
+
+from strataweave.report import figures_biology, figures_cohort, figures_outcome, figures_selection, figures_subtypes
+from strataweave.report.figure_style import FIGURE_SIZE, new_figure, report_style, save_figure
+from strataweave.report.formatting import plot_text
+from strataweave.report.run_folder import RunView
+
+FIGURES_DIR = "figures"
+
+
+@dataclass(frozen=True)
+class FigurePlan:
+    """One figure to draw: `draw(run, canvas)` fills a figure or a slide's sub-figure."""
+
+    name: str
+    section: str
+    caption: str
+    draw: Callable
+    size: tuple[float, float] = FIGURE_SIZE
+
+
+@dataclass(frozen=True)
+class DrawnFigure:
+    plan: FigurePlan
+    png: bytes
+
+
+def plan_figures(run: RunView) -> list[FigurePlan]:
+    """The figures this run calls for, in report order; absent sections give no figures."""
+    plans = [
+        FigurePlan("cohort_presence", "cohort", "Patients (columns, ordered by subtype) measured in each modality.",
+                   figures_cohort.draw_presence, (11.0, 3.0 + 0.45 * len(run.results["cohort"]["modalities"]))),
+        FigurePlan("cohort_filters", "cohort", "Features kept after each filter step, per modality.",
+                   figures_cohort.draw_filters, (10.0, 5.0)),
+    ]
+    if run.has("graph"):
+        plans.append(FigurePlan("graph_agreement", "graph",
+                                "Mean fraction of shared neighbours between the graphs of two modalities.",
+                                figures_cohort.draw_agreement, (7.5, 6.0)))
+    if run.has("selection"):
+        plans += [
+            FigurePlan("selection_criteria", "selection", "Each criterion against the subtype count.",
+                       figures_selection.draw_criteria, (12.0, 6.5)),
+            FigurePlan("selection_consensus", "selection",
+                       "Consensus matrices of the candidate counts, patients ordered by subtype at each count.",
+                       figures_selection.draw_consensus, (12.0, 6.5)),
+        ]
+        if run.results["selection"].get("flow"):
+            plans.append(FigurePlan("selection_split_flow", "selection",
+                                    "How patients move between subtypes from one count to the next.",
+                                    figures_selection.draw_split_flow, (11.0, 6.0)))
+    plans += [
+        FigurePlan("subtype_sizes", "subtypes", "Patients per subtype; the solid part are core patients.",
+                   figures_subtypes.draw_sizes, (9.0, 1.6 + 0.7 * len(run.labels))),
+        FigurePlan("subtype_confidence", "subtypes", "Distribution of assignment confidence within each subtype.",
+                   figures_subtypes.draw_confidence, (9.0, 1.8 + 1.1 * len(run.labels))),
+    ]
+    if "embedding" in run.arrays:
+        plans.insert(len(plans) - 1, FigurePlan(
+            "subtype_embedding", "subtypes", "Two-dimensional spectral embedding of the fused graph.",
+            figures_subtypes.draw_embedding, (10.0, 7.0)))
+    if run.has("baselines"):
+        plans.append(FigurePlan("subtype_baselines", "subtypes", "Agreement of the baseline methods with our subtypes.",
+                                figures_subtypes.draw_baselines, (10.0, 1.8 + 0.8 * len(run.results["baselines"]))))
+    if run.has("survival"):
+        plans += [
+            FigurePlan("survival_kaplan_meier", "survival", "Kaplan-Meier curves with numbers at risk.",
+                       figures_outcome.draw_kaplan_meier, (11.0, 7.0)),
+            FigurePlan("survival_cox_forest", "survival", "Hazard ratios of the Cox model with 95% intervals.",
+                       figures_outcome.draw_forest, (12.0, 1.8 + 0.6 * len(run.results["survival"]["cox"]))),
+        ]
+    for index, block in enumerate(run.results.get("markers") or []):
+        plans.append(FigurePlan(f"markers_{index + 1}", "markers",
+                                f"Top markers per subtype in {plot_text(block['modality'])}.",
+                                partial(figures_biology.draw_marker_heatmap, index=index), (12.0, 7.0)))
+    if run.has("enrichment") and figures_biology.enrichment_rows(run):
+        plans.append(FigurePlan("enrichment_dots", "enrichment", "Top over-represented gene sets per subtype.",
+                                figures_biology.draw_enrichment, (12.0, 7.0)))
+    return plans
+
+
+def draw_figures(run: RunView, progress: Callable[[int], None] | None = None) -> list[DrawnFigure]:
+    """Draw every planned figure into run_dir/figures as PNG and SVG; return them with their PNG bytes."""
+    folder = Path(run.run_dir) / FIGURES_DIR
+    drawn = []
+    with report_style():
+        for done, plan in enumerate(plan_figures(run), start=1):
+            fig = new_figure(plan.size)
+            plan.draw(run, fig)
+            drawn.append(DrawnFigure(plan, save_figure(fig, folder, plan.name)))
+            if progress is not None:
+                progress(done)
+    return drawn

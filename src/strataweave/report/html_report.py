@@ -1,0 +1,113 @@
+"""The self-contained HTML report: jinja2 with autoescaping, figures inlined, no network requests."""
+
+from __future__ import annotations
+
+import base64
+import shlex
+from typing import Any
+
+import numpy as np
+from jinja2 import Environment, PackageLoader, StrictUndefined
+
+from strataweave.caution import CAUTION
+from strataweave.report.figure_catalogue import DrawnFigure
+from strataweave.report.figures_outcome import logrank_sentence
+from strataweave.report.methods_text import REFERENCES, methods_paragraph
+from strataweave.report.run_folder import RunView
+from strataweave.report.tables import criteria_table, modalities_table, rows_table
+
+TEMPLATE = "report.html.j2"
+
+
+def _environment() -> Environment:
+    """Autoescaping is on for every template, whatever its file name."""
+    return Environment(loader=PackageLoader("strataweave.report", "templates"), autoescape=True,
+                       undefined=StrictUndefined, trim_blocks=True, lstrip_blocks=True)
+
+
+def _figures_by_section(figures: list[DrawnFigure]) -> dict[str, list[dict[str, str]]]:
+    sections: dict[str, list[dict[str, str]]] = {}
+    for figure in figures:
+        sections.setdefault(figure.plan.section, []).append({
+            "name": figure.plan.name,
+            "caption": figure.plan.caption,
+            "source": "data:image/png;base64," + base64.b64encode(figure.png).decode("ascii"),
+        })
+    return sections
+
+
+def _subtype_rows(run: RunView) -> list[dict[str, Any]]:
+    codes, core, confidence = run.arrays["subtype_code"], run.arrays["core"], run.arrays["confidence"]
+    total = max(sum(run.results["subtypes"]["sizes"]), 1)
+    rows = []
+    for code, (label, size) in enumerate(zip(run.labels, run.results["subtypes"]["sizes"])):
+        member = codes == code
+        row = {"subtype": label, "patients": size, "share": f"{100 * size / total:.1f}%",
+               "core patients": int(np.count_nonzero(member & core)),
+               "confidence range": (f"{confidence[member].min():.2f}-{confidence[member].max():.2f}"
+                                    if member.any() else "\u2013")}
+        if run.show_patient_ids:
+            row["core patient IDs"] = ", ".join(str(i) for i in run.arrays["patient_ids"][member & core])
+        rows.append(row)
+    return rows
+
+
+def _reproducibility(run: RunView) -> dict[str, Any]:
+    manifest = run.manifest
+    command = manifest.get("command")
+    facts = [(key.replace("_", " "), manifest[key]) for key in ("created", "strataweave_version", "python",
+                                                                  "platform", "seed") if key in manifest]
+    stages = [{"stage": name, "seconds": info.get("seconds") if isinstance(info, dict) else None,
+               "cache key": info.get("key") if isinstance(info, dict) else None}
+              for name, info in (manifest.get("stages") or {}).items()]
+    return {
+        "command": shlex.join(command) if command else None,
+        "facts": facts,
+        "packages": rows_table([{"package": k, "version": v} for k, v in (manifest.get("packages") or {}).items()]),
+        "inputs": rows_table([{"input": k, "sha256": v} for k, v in (manifest.get("inputs") or {}).items()]),
+        "stages": rows_table(stages),
+    }
+
+
+def report_context(run: RunView, figures: list[DrawnFigure]) -> dict[str, Any]:
+    """Everything the template shows, as plain values; user strings stay raw (the template escapes them)."""
+    results = run.results
+    paragraph, cited = methods_paragraph(results)
+    survival = results.get("survival")
+    context: dict[str, Any] = {
+        "caution": results.get("caution") or CAUTION,
+        "title": run.title,
+        "figures": _figures_by_section(figures),
+        "subtype_count": results["subtype_count"],
+        "cohort": {"patients": results["cohort"]["patients"],
+                   "modalities": modalities_table(results["cohort"]["modalities"])},
+        "graph": results.get("graph"),
+        "agreement": rows_table(results["graph"]["agreement"]) if run.has("graph") else None,
+        "selection": results.get("selection"),
+        "criteria": criteria_table(results["selection"]) if run.has("selection") else None,
+        "subtypes": rows_table(_subtype_rows(run)),
+        "show_patient_ids": run.show_patient_ids,
+        "baselines": rows_table(results["baselines"]) if run.has("baselines") else None,
+        "survival": survival,
+        "logrank": logrank_sentence(survival) if survival else None,
+        "clinical": rows_table(results["clinical"]) if run.has("clinical") else None,
+        "markers": [{"modality": block["modality"], "test": block.get("test"), "table": rows_table(block["rows"])}
+                    for block in results.get("markers") or []],
+        "enrichment": rows_table(results["enrichment"]) if run.has("enrichment") else None,
+        "methods": paragraph,
+        "references": [REFERENCES[key] for key in cited],
+        "reproducibility": _reproducibility(run),
+    }
+    if survival:
+        context["survival_tables"] = [
+            (title, rows_table(survival[key]))
+            for key, title in (("cox", "Cox model"), ("medians", "Median survival"),
+                               ("rmst", "Restricted mean survival time"), ("pairwise", "Pairwise log-rank tests"))
+            if survival.get(key)
+        ]
+    return context
+
+
+def render_html(run: RunView, figures: list[DrawnFigure]) -> str:
+    """The report as one HTML string."""
+    return _environment().get_template(TEMPLATE).render(**report_context(run, figures))

@@ -1,0 +1,127 @@
+"""The methods paragraph, generated from the parameters a run actually used, with its references."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from strataweave.report.formatting import format_value
+
+REFERENCES: dict[str, str] = {
+    "lee1999": "Lee DD, Seung HS. Learning the parts of objects by non-negative matrix factorization. "
+               "Nature 1999;401:788-791.",
+    "cai2011": "Cai D, He X, Han J, Huang TS. Graph regularized nonnegative matrix factorization for data "
+               "representation. IEEE Trans Pattern Anal Mach Intell 2011;33:1548-1560.",
+    "wang2014": "Wang B, Mezlini AM, Demir F, et al. Similarity network fusion for aggregating data types on a "
+                "genomic scale. Nat Methods 2014;11:333-337.",
+    "monti2003": "Monti S, Tamayo P, Mesirov J, Golub T. Consensus clustering: a resampling-based method for "
+                 "class discovery and visualization of gene expression microarray data. Mach Learn 2003;52:91-118.",
+    "senbabaoglu2014": "Senbabaoglu Y, Michailidis G, Li JZ. Critical limitations of consensus clustering in class "
+                       "discovery. Sci Rep 2014;4:6207.",
+    "brunet2004": "Brunet JP, Tamayo P, Golub TR, Mesirov JP. Metagenes and molecular pattern discovery using "
+                  "matrix factorization. Proc Natl Acad Sci USA 2004;101:4164-4169.",
+    "luxburg2007": "von Luxburg U. A tutorial on spectral clustering. Stat Comput 2007;17:395-416.",
+    "hubert1985": "Hubert L, Arabie P. Comparing partitions. J Classif 1985;2:193-218.",
+    "kaplan1958": "Kaplan EL, Meier P. Nonparametric estimation from incomplete observations. "
+                  "J Am Stat Assoc 1958;53:457-481.",
+    "cox1972": "Cox DR. Regression models and life-tables. J R Stat Soc Series B 1972;34:187-220.",
+    "grambsch1994": "Grambsch PM, Therneau TM. Proportional hazards tests and diagnostics based on weighted "
+                    "residuals. Biometrika 1994;81:515-526.",
+    "royston2013": "Royston P, Parmar MKB. Restricted mean survival time: an alternative to the hazard ratio for "
+                   "the design and analysis of randomized trials with a time-to-event outcome. "
+                   "BMC Med Res Methodol 2013;13:152.",
+    "benjamini1995": "Benjamini Y, Hochberg Y. Controlling the false discovery rate: a practical and powerful "
+                     "approach to multiple testing. J R Stat Soc Series B 1995;57:289-300.",
+    "mann1947": "Mann HB, Whitney DR. On a test of whether one of two random variables is stochastically larger "
+                "than the other. Ann Math Stat 1947;18:50-60.",
+    "kruskal1952": "Kruskal WH, Wallis WA. Use of ranks in one-criterion variance analysis. "
+                   "J Am Stat Assoc 1952;47:583-621.",
+}
+
+
+def _get(parameters: dict[str, Any], path: str) -> Any:
+    value: Any = parameters
+    for key in path.split("."):
+        if not isinstance(value, dict) or key not in value:
+            return None
+        value = value[key]
+    return value
+
+
+def _phrase(template: str, **values: Any) -> str:
+    """The template filled in, or '' when any value is missing (so unknown parameters are never invented)."""
+    if any(v is None for v in values.values()):
+        return ""
+    return template.format(**{k: format_value(v) for k, v in values.items()})
+
+
+def methods_paragraph(results: dict[str, Any]) -> tuple[str, list[str]]:
+    """A methods paragraph from results.json and the keys of the references it cites, in order."""
+    p = results.get("parameters") or {}
+    cited: list[str] = []
+
+    def cite(*keys: str) -> str:
+        for key in keys:
+            if key not in cited:
+                cited.append(key)
+        return " [" + ", ".join(str(cited.index(key) + 1) for key in keys) + "]"
+
+    modalities = results["cohort"]["modalities"]
+    names = ", ".join(f"{m['name']} ({m['kind']}, {m['patients']} patients)" for m in modalities)
+    sentences = [f"{results['cohort']['patients']} patients were analysed"
+                 + (f" with {len(modalities)} omics layers: {names}." if modalities else ".")]
+    if results.get("graph"):
+        graph = results["graph"]
+        kernel = _phrase(" with the {kernel} kernel", kernel=_get(p, "graph.kernel"))
+        metric = _phrase(" on {metric} distances", metric=_get(p, "graph.metric"))
+        sentences.append(
+            f"Per modality, a patient-similarity graph keeping {graph['neighbours']} neighbours per patient was built"
+            f"{kernel}{metric}{cite('wang2014')}, and the graphs were fused by the {graph['rule']} rule; "
+            f"{graph['fallback_patients']} patients left without an edge were linked to their nearest neighbours "
+            "in the average graph.")
+    if results.get("selection"):
+        selection = results["selection"]
+        weight = _phrase(" (graph weight {w})", w=_get(p, "factorization.graph_weight"))
+        restarts = _phrase(", {r} restarts", r=_get(p, "factorization.restarts"))
+        resamples = _phrase("{n} resamples of {f} of the patients", n=_get(p, "resampling.resamples"),
+                            f=_get(p, "resampling.fraction")) or "resamples of the patients"
+        window = _get(p, "subtypes.pac_window")
+        pac = _phrase(" with window {lo}-{hi}", lo=window[0], hi=window[1]) if isinstance(window, list) else ""
+        sentences.append(
+            "A joint non-negative matrix factorisation shared one patient factor across modalities"
+            f"{cite('lee1999')} and was regularised by the fused graph{cite('cai2011')}{weight}{restarts}. "
+            f"Subtype counts {format_value(selection['counts'])} were compared by consensus over {resamples}"
+            f"{cite('monti2003')}, using the proportion of ambiguous clustering{pac}{cite('senbabaoglu2014')}, "
+            f"the cophenetic correlation{cite('brunet2004')}, the eigengap of the fused graph{cite('luxburg2007')} "
+            "and further criteria listed in the report.")
+        chosen = "fixed by the user" if selection.get("overridden") else "recommended"
+        sentences.append(f"{results['subtype_count']} subtypes were used ({chosen}; rule: {selection['reason']})")
+    if results.get("baselines"):
+        sentences.append("Agreement with baseline methods was measured by the adjusted Rand index"
+                         f"{cite('hubert1985')} and normalised mutual information.")
+    if results.get("survival"):
+        permutations = _phrase(" and by {n} label permutations", n=results["survival"]["logrank"].get("permutations")
+                               or _get(p, "evaluation.permutations"))
+        covariates = _get(p, "evaluation.covariates")
+        adjusted = f", adjusted for {format_value(covariates)}" if covariates else ""
+        sentences.append(
+            f"Survival was summarised by Kaplan-Meier estimates{cite('kaplan1958')} and compared by the log-rank "
+            f"test{permutations}; hazard ratios came from a Cox model{cite('cox1972')}{adjusted}, whose "
+            f"proportional-hazards assumption was checked with scaled Schoenfeld residuals{cite('grambsch1994')}"
+            + (f"; restricted mean survival times{cite('royston2013')} were computed up to "
+               f"{format_value(results['survival']['rmst_horizon'])} {results['survival'].get('time_unit', '')}"
+               .rstrip() if results["survival"].get("rmst_horizon") is not None else "") + ".")
+    if results.get("clinical"):
+        sentences.append("Clinical variables were compared between subtypes by chi-square or Fisher's exact tests "
+                         f"and the Kruskal-Wallis test{cite('kruskal1952')}.")
+    if results.get("markers"):
+        sentences.append("Markers of each subtype against the rest were ranked by the Mann-Whitney U test"
+                         f"{cite('mann1947')} per feature.")
+    if results.get("enrichment"):
+        sentences.append("Over-representation of each subtype's markers in gene sets was tested with the "
+                         "hypergeometric distribution, the universe being the measured features.")
+    if any(results.get(key) for key in ("clinical", "markers", "enrichment", "survival")):
+        sentences.append(f"p-values were adjusted by the Benjamini-Hochberg procedure{cite('benjamini1995')}.")
+    seed = _get(p, "seed")
+    if seed is not None:
+        sentences.append(f"All random draws derive from the seed {seed}.")
+    return " ".join(sentences), cited

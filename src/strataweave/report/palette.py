@@ -1,0 +1,42 @@
+"""The report's one colour scheme: a subtype keeps its colour in every figure and slide.
+
+The eight subtype colours were chosen for this project by a greedy search that keeps every
+pair far apart in CIELAB under normal vision and under simulated protanopia, deuteranopia
+and tritanopia; the first k colours are the most distinct k. Series that are not subtypes
+(modalities, criteria) are drawn in greys so they never borrow a subtype's colour.
+"""
+
+from __future__ import annotations
+
+from matplotlib.colors import LinearSegmentedColormap
+
+SUBTYPE_COLOURS: tuple[str, ...] = (
+    "#2D5A87",  # harbour blue
+    "#FF780F",  # signal orange
+    "#A500FF",  # violet
+    "#783C0F",  # chestnut
+    "#00C3B4",  # teal
+    "#B496FF",  # lavender
+    "#D29669",  # tan
+    "#5A4B4B",  # charcoal brown
+)
+
+NEUTRAL = "#3C3C3C"
+NEUTRAL_LIGHT = "#D9D9D9"
+NEUTRAL_SHADES: tuple[str, ...] = ("#252525", "#636363", "#969696", "#4D4D4D", "#7F7F7F", "#AFAFAF")
+MARKERS: tuple[str, ...] = ("o", "s", "^", "D", "v", "P", "X", "*")
+
+#: Diverging map for centred values (blue below, orange above), safe for red-green deficiency.
+DIVERGING = LinearSegmentedColormap.from_list("strataweave_diverging", ["#2D5A87", "#F7F7F7", "#FF780F"])
+#: Sequential map for 0..1 values (consensus, agreement): white to harbour blue.
+SEQUENTIAL = LinearSegmentedColormap.from_list("strataweave_sequential", ["#FFFFFF", "#96C3FF", "#2D5A87", "#0B1F33"])
+
+
+def subtype_colour(code: int) -> str:
+    """Colour of the subtype with this code; beyond eight subtypes the colours repeat."""
+    return SUBTYPE_COLOURS[int(code) % len(SUBTYPE_COLOURS)]
+
+
+def subtype_colours(count: int) -> list[str]:
+    """Colours of subtype codes 0..count-1."""
+    return [subtype_colour(code) for code in range(count)]

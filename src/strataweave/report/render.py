@@ -1,0 +1,39 @@
+"""Render a run folder: figures/ (PNG + SVG), report.html and slides.pdf, written atomically."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Callable, Iterable
+
+from strataweave.errors import InputError
+from strataweave.files import atomic_write_bytes, atomic_write_text
+from strataweave.report.figure_catalogue import draw_figures
+from strataweave.report.html_report import render_html
+from strataweave.report.run_folder import load_run
+from strataweave.report.slides import render_slides
+
+FORMATS = ("html", "pdf")
+REPORT_FILE = "report.html"
+SLIDES_FILE = "slides.pdf"
+
+
+def render_run(run_dir: str | Path, formats: Iterable[str] = FORMATS,
+               progress: Callable[[int], None] | None = None) -> dict[str, Path]:
+    """Draw the figures and write the requested formats; return {"figures"|"html"|"pdf": path}.
+
+    Reads only results.json, stages/figure_data.npz and manifest.json; computes no statistics.
+    """
+    formats = tuple(formats)
+    unknown = [f for f in formats if f not in FORMATS]
+    if unknown:
+        raise InputError(f"report formats: found {unknown[0]!r}; expected some of {', '.join(FORMATS)}")
+    run = load_run(run_dir)
+    figures = draw_figures(run, progress=progress)
+    written = {"figures": run.run_dir / "figures"}
+    if "html" in formats:
+        written["html"] = run.run_dir / REPORT_FILE
+        atomic_write_text(written["html"], render_html(run, figures))
+    if "pdf" in formats:
+        written["pdf"] = run.run_dir / SLIDES_FILE
+        atomic_write_bytes(written["pdf"], render_slides(run))
+    return written

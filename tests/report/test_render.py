@@ -1,0 +1,188 @@
+"""render_run on an invented run folder whose user strings try to break out of HTML, PDF and plots."""
+
+from __future__ import annotations
+
+import html
+import json
+import re
+import shlex
+import shutil
+import subprocess
+from pathlib import Path
+
+import matplotlib.image as mpimg
+import numpy as np
+import pytest
+from report_fixture import make_results, write_run_folder
+
+from strataweave import InputError
+from strataweave.caution import CAUTION
+from strataweave.report import render_run
+from strataweave.report.html_report import render_html
+from strataweave.report.palette import subtype_colour
+from strataweave.report.run_folder import load_run
+
+HOSTILE_TITLE = '<script>alert("title")</script> Tom & Jerry\'s "cohort"'
+HOSTILE_MODALITIES = ("rna<b>bold</b>", 'meth"yl&amp;ation\'')
+HOSTILE_PREFIX = '<img src=x onerror=alert(1)>$F&"'
+HOSTILE_CLINICAL = "<script>stage</script>&<'\">"
+
+
+@pytest.fixture(scope="module")
+def rendered(tmp_path_factory) -> Path:
+    results, arrays = make_results(modality_names=HOSTILE_MODALITIES, feature_prefix=HOSTILE_PREFIX,
+                                   title=HOSTILE_TITLE, clinical_name=HOSTILE_CLINICAL)
+    root = write_run_folder(tmp_path_factory.mktemp("hostile") / "run", results, arrays)
+    render_run(root)
+    return root
+
+
+@pytest.fixture(scope="module")
+def page(rendered) -> str:
+    return (rendered / "report.html").read_text(encoding="utf-8")
+
+
+def _results(root: Path) -> dict:
+    return json.loads((root / "results.json").read_text(encoding="utf-8"))
+
+
+def test_every_figure_written_as_png_and_svg(rendered):
+    pngs = sorted(p.stem for p in (rendered / "figures").glob("*.png"))
+    svgs = sorted(p.stem for p in (rendered / "figures").glob("*.svg"))
+    assert pngs == svgs
+    assert {"cohort_presence", "cohort_filters", "graph_agreement", "selection_criteria", "selection_consensus",
+            "selection_split_flow", "subtype_sizes", "subtype_embedding", "subtype_confidence", "subtype_baselines",
+            "survival_kaplan_meier", "survival_cox_forest", "markers_1", "markers_2", "enrichment_dots"} == set(pngs)
+    for name in pngs:
+        image = mpimg.imread(rendered / "figures" / f"{name}.png")
+        assert image.shape[0] > 200 and image.shape[1] > 400
+        assert image[..., :3].std() > 0.05, f"{name}.png looks blank"
+    assert not list(rendered.rglob("*.tmp")), "a temporary file of an atomic write was left behind"
+
+
+def test_caution_at_top_and_bottom_of_html(page):
+    escaped = html.escape(CAUTION)
+    body = page[page.index("<body>"):]
+    assert body.count(escaped) == 2
+    first_section = body.index("<section")
+    assert body.index(escaped) < first_section
+    assert body.rindex(escaped) > body.rindex("</section>")
+
+
+def test_html_is_self_contained(page):
+    assert "<script" not in page.lower()
+    assert not re.search(r"""(src|href)\s*=\s*["']?(https?:|//)""", page, flags=re.IGNORECASE)
+    sources = re.findall(r'<img src="([^"]+)"', page)
+    assert len(sources) == 15 and all(s.startswith("data:image/png;base64,") for s in sources)
+    assert "default-src 'none'" in page
+
+
+@pytest.mark.parametrize("raw", [HOSTILE_TITLE, *HOSTILE_MODALITIES, HOSTILE_CLINICAL, HOSTILE_PREFIX])
+def test_user_strings_are_escaped(page, raw):
+    # html.escape (standard library) is the reference for what an escaped string looks like;
+    # jinja2 writes quotes as &#34; and &#39;, html.escape as &quot; and &#x27; (equivalent entities).
+    assert raw not in page
+    assert html.escape(raw) in page.replace("&#39;", "&#x27;").replace("&#34;", "&quot;")
+
+
+def test_no_patient_ids_unless_allowed(rendered, page):
+    assert "PX-0" not in page
+    results = _results(rendered)
+    results["report"]["show_patient_ids"] = True
+    (rendered / "results.json").write_text(json.dumps(results), encoding="utf-8")
+    try:
+        allowed = render_html(load_run(rendered), [])
+    finally:
+        results["report"]["show_patient_ids"] = False
+        (rendered / "results.json").write_text(json.dumps(results), encoding="utf-8")
+    core_ids = load_run(rendered).arrays["patient_ids"][load_run(rendered).arrays["core"]]
+    assert all(str(i) in allowed for i in core_ids)
+
+
+def test_numbers_come_from_results(rendered, page):
+    results = _results(rendered)
+    assert "permutation p = 0.001, 1000 permutations" in page
+    assert "2.1</td><td>1.2</td><td>3.6</td><td>0.01" in page
+    assert html.escape(results["selection"]["reason"]) in page
+    results["survival"]["logrank"]["p_value_permutation"] = 0.0371
+    results["survival"]["cox"][0]["hazard_ratio"] = 2.345
+    (rendered / "results.json").write_text(json.dumps(results), encoding="utf-8")
+    try:
+        changed = render_html(load_run(rendered), [])
+    finally:
+        results["survival"]["logrank"]["p_value_permutation"] = 0.001
+        results["survival"]["cox"][0]["hazard_ratio"] = 2.1
+        (rendered / "results.json").write_text(json.dumps(results), encoding="utf-8")
+    assert "permutation p = 0.0371" in changed and "<td>2.35</td>" in changed
+
+
+def test_sections_methods_and_rerun_command(rendered, page):
+    for section in ("cohort", "graphs", "how-many", "subtypes", "outcomes", "clinical", "markers", "enrichment",
+                    "methods", "reproducibility"):
+        assert f'<section id="{section}">' in page
+    manifest = json.loads((rendered / "manifest.json").read_text())
+    command = re.search(r'<pre id="rerun-command">(.*?)</pre>', page, flags=re.S).group(1)
+    assert shlex.split(html.unescape(command)) == manifest["command"]
+    assert "graph weight 0.5" in page and "20 resamples of 0.8 of the patients" in page
+    assert "Senbabaoglu Y" in page and "Proportional hazards:" in page
+
+
+def _subtype_pixels(path: Path, code: int) -> int:
+    image = (mpimg.imread(path)[..., :3] * 255).round().astype(int)
+    target = np.array([int(subtype_colour(code)[i:i + 2], 16) for i in (1, 3, 5)])
+    return int(np.count_nonzero(np.all(image == target, axis=-1)))
+
+
+@pytest.mark.parametrize("name", ["cohort_presence", "selection_consensus", "subtype_sizes", "subtype_confidence",
+                                  "markers_1", "selection_split_flow"])
+def test_each_subtype_keeps_its_colour(rendered, name):
+    for code in range(3):
+        assert _subtype_pixels(rendered / "figures" / f"{name}.png", code) > 20, (name, code)
+    assert _subtype_pixels(rendered / "figures" / f"{name}.png", 3) == 0, "a fourth subtype colour appeared"
+
+
+@pytest.mark.skipif(shutil.which("pdftotext") is None, reason="pdftotext (Debian poppler-utils) is not installed")
+def test_caution_on_every_slide(rendered):
+    text = subprocess.run(["pdftotext", str(rendered / "slides.pdf"), "-"], capture_output=True,
+                          text=True, check=True).stdout
+    pages = [p for p in text.split("\f") if p.strip()]
+    assert len(pages) == 11
+    for number, content in enumerate(pages, start=1):
+        assert " ".join(CAUTION.split()) in " ".join(content.split()), f"caution missing on slide {number}"
+        assert "PX-0" not in content
+    info = subprocess.run(["pdfinfo", str(rendered / "slides.pdf")], capture_output=True, text=True).stdout
+    width, height = map(float, re.search(r"Page size:\s+([\d.]+) x ([\d.]+)", info).groups())
+    assert width / height == pytest.approx(16 / 9, rel=1e-3)
+
+
+def test_minimal_run_leaves_out_absent_sections(tmp_path):
+    results, arrays = make_results(survival=False, markers=False, n=30)
+    for key in ("graph", "selection", "baselines", "clinical", "parameters"):
+        results.pop(key)
+    arrays = {k: v for k, v in arrays.items() if k in ("subtype_code", "confidence", "core", "presence")}
+    root = write_run_folder(tmp_path / "run", results, arrays, manifest={})
+    written = render_run(root)
+    page = written["html"].read_text(encoding="utf-8")
+    for absent in ("outcomes", "how-many", "markers", "enrichment", "clinical", "graphs"):
+        assert f'<section id="{absent}">' not in page
+    assert "The manifest records no command line." in page
+    assert sorted(p.stem for p in (root / "figures").glob("*.png")) == [
+        "cohort_filters", "cohort_presence", "subtype_confidence", "subtype_sizes"]
+    assert written["pdf"].read_bytes().startswith(b"%PDF")
+
+
+def test_bad_run_folders_raise_one_line_input_errors(tmp_path):
+    with pytest.raises(InputError, match=r"results.json: file not found"):
+        render_run(tmp_path)
+    results, arrays = make_results(n=20)
+    root = write_run_folder(tmp_path / "run", results, arrays)
+    with pytest.raises(InputError, match="report formats: found 'docx'"):
+        render_run(root, formats=("docx",))
+    del results["survival"]["logrank"]["df"]
+    (root / "results.json").write_text(json.dumps(results), encoding="utf-8")
+    with pytest.raises(InputError, match=r"key 'survival.logrank.df' is missing") as error:
+        render_run(root)
+    assert "\n" not in str(error.value)
+    (root / "results.json").write_text("{not json", encoding="utf-8")
+    with pytest.raises(InputError, match="line 1: not valid JSON"):
+        render_run(root)
