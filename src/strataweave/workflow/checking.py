@@ -7,7 +7,7 @@ from pathlib import Path
 import pandas as pd
 
 from strataweave.workflow.config import load_workflow
-from strataweave.workflow.loading import load_inputs
+from strataweave.workflow.loading import check_columns, load_inputs
 
 
 def check_inputs(path: str | Path) -> tuple[str, pd.DataFrame]:
@@ -15,6 +15,7 @@ def check_inputs(path: str | Path) -> tuple[str, pd.DataFrame]:
     flow = load_workflow(path, require_modalities=False)
     loaded = load_inputs(flow)
     clinical, raw = loaded["clinical"], loaded["raw"]
+    check_columns(flow, clinical)
     rows = []
     for modality in flow.modalities:
         frame = raw[modality.name]

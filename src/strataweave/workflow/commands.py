@@ -72,12 +72,19 @@ def compare_command(args: argparse.Namespace, argv: list[str], feedback: Feedbac
 
 
 def report_command(args: argparse.Namespace, argv: list[str], feedback: Feedback) -> int:
+    import json
+
+    from strataweave.report.contract import RESULTS_FILE
     from strataweave.workflow.outputs import render_report
     from strataweave.workflow.run_folder import finished_run
 
     folder = finished_run(args.run_dir)
-    formats = folder.read_manifest().get("report_formats", ["html", "pdf"])
-    render_report(folder.path, formats)
+    try:
+        results = json.loads((folder.path / RESULTS_FILE).read_text(encoding="utf-8"))
+        formats = results["report"]["formats"]
+    except (OSError, ValueError, KeyError, TypeError):
+        formats = ["html", "pdf"]
+    render_report(folder.path, formats, feedback)
     feedback.say(f"report rendered: {folder.path}")
     return 0
 

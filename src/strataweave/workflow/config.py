@@ -137,6 +137,12 @@ def _check_combinations(flow: Workflow, source: str) -> None:
         raise InputError(f"{source}: key 'subtypes.pac_window': found {list(window)}, expected two numbers, lower first")
     if flow.resampling.scheduler is not None and flow.resampling.backend != "dask":
         raise InputError(f"{source}: key 'resampling.scheduler': given, expected it only with resampling.backend = 'dask'")
+    names = [m.name for m in flow.modalities]
+    if flow.evaluation.gene_set_modality is not None and flow.evaluation.gene_set_modality not in names:
+        raise InputError(
+            f"{source}: key 'evaluation.gene_set_modality': found {flow.evaluation.gene_set_modality!r}, "
+            f"expected one of the modalities {names}"
+        )
     if flow.evaluation.max_set_size < flow.evaluation.min_set_size:
         raise InputError(
             f"{source}: key 'evaluation.max_set_size': found {flow.evaluation.max_set_size}, "

@@ -9,14 +9,15 @@ from strataweave.errors import InputError
 from strataweave.workflow.config import Workflow
 
 
-def _check_columns(flow: Workflow, clinical: pd.DataFrame) -> None:
+def check_columns(flow: Workflow, clinical: pd.DataFrame) -> None:
     """Every clinical column the workflow names must be in the clinical table."""
     named = {
         "cohort.time_column": [flow.cohort.time_column],
         "cohort.event_column": [flow.cohort.event_column],
         "evaluation.covariates": list(flow.evaluation.covariates),
-        "evaluation.strata": list(flow.evaluation.strata),
+        "evaluation.strata": [flow.evaluation.strata],
         "evaluation.clinical_columns": list(flow.evaluation.clinical_columns or ()),
+        "evaluation.categorical_columns": list(flow.evaluation.categorical_columns),
     }
     for key, columns in named.items():
         for column in columns:
@@ -30,7 +31,6 @@ def _check_columns(flow: Workflow, clinical: pd.DataFrame) -> None:
 def load_inputs(flow: Workflow) -> dict:
     """Clinical table and raw matrices (patients x features), validated by the data layer."""
     clinical = read_clinical(flow.cohort.clinical, flow.cohort.id_column)
-    _check_columns(flow, clinical)
     raw = {
         m.name: read_matrix(m.path, orientation=m.orientation, known_ids=clinical.index, name=m.name, kind=m.kind)
         for m in flow.modalities

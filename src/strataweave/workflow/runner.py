@@ -15,6 +15,7 @@ from strataweave.seeding import child_seeds
 from strataweave.workflow.cache import StageCache
 from strataweave.workflow.config import Workflow
 from strataweave.workflow.groups import read_groups
+from strataweave.workflow.loading import check_columns
 from strataweave.workflow.manifest import input_hashes, new_manifest, now_text
 from strataweave.workflow.pipeline import Pipeline
 from strataweave.workflow.progress import Feedback
@@ -60,7 +61,7 @@ def run_workflow(
     of finding subtypes: load, prepare (when there are modalities), evaluate, outputs.
     """
     from strataweave.workflow.outputs import write_outputs
-    from strataweave.workflow.stages import build_stages, stages_for_outputs
+    from strataweave.workflow.stages import build_stages
 
     feedback = feedback or Feedback()
     groups = read_groups(groups_file) if groups_file is not None else None
@@ -76,7 +77,8 @@ def run_workflow(
     cache = StageCache(folder.stages)
     pipeline = Pipeline(build_stages(flow, hashes, seeds, feedback, groups), cache, recorder)
 
-    results = {name: pipeline.result(name) for name in stages_for_outputs(pipeline.stages)}
+    check_columns(flow, pipeline.result("load")["clinical"])
+    results = {name: pipeline.result(name) for name in pipeline.stages}
     recorder.stage_started("outputs", cached=False)
     start = time.perf_counter()
     summary = write_outputs(folder, flow, results, manifest, feedback)

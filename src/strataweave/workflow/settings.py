@@ -7,13 +7,16 @@ definitions, so a key exists in exactly one place.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, fields
 from pathlib import Path
 
+from strataweave.data.filters import RANKINGS
+from strataweave.data.imputation import IMPUTERS
+from strataweave.data.readers import ORIENTATIONS
+from strataweave.data.scaling import NON_NEGATIVITY, SCALINGS
+from strataweave.data.validation import KINDS
 from strataweave.workflow import rules
 
-MODALITY_KINDS = ("counts", "beta", "abundance", "log_expression", "copy_number")
-ORIENTATIONS = ("features_in_rows", "samples_in_rows")
 SAFE_NAME = r"[A-Za-z0-9][A-Za-z0-9_.-]*"
 
 
@@ -37,19 +40,32 @@ class CohortSettings:
 
 @dataclass(frozen=True)
 class ModalitySettings:
-    """[[modality]]: one omics layer, how to read it, how to filter it, its weight."""
+    """[[modality]]: one omics layer, how to read it, how to normalise and filter it, its weight.
+
+    The preprocessing keys are those of `strataweave.data.Preprocessor`.
+    """
 
     name: str = key(rules.text(SAFE_NAME, "a name of letters, digits, '_', '.', '-'"))
     path: Path = key(rules.existing_file())
-    kind: str = key(rules.choice(*MODALITY_KINDS))
+    kind: str = key(rules.choice(*KINDS))
     orientation: str | None = key(rules.choice(*ORIENTATIONS), None, doc="omitted = detect")
     weight: float = key(rules.number(above=0), 1.0, doc="relative weight in the factorisation")
-    max_missing: float = key(rules.number(0, 1), 0.2, doc="drop features missing in more patients")
-    keep_most_variable: int | None = key(rules.integer(1), 2000, doc="top features by variance")
+    prior_count: float = key(rules.number(above=0), 0.5, doc="counts: added before log2 CPM")
+    beta_to_m: bool = key(rules.flag(), True, doc="beta: use M-values")
     quantile_normalise: bool = key(rules.flag(), False)
-    impute: str = key(rules.choice("knn", "median"), "knn")
-    scale: str = key(rules.choice("zscore", "none"), "zscore")
-    nonnegative: str = key(rules.choice("shift", "split"), "split")
+    max_missing_fraction: float = key(rules.number(0, 1), 0.2, doc="drop features missing in more patients")
+    min_variance: float = key(rules.number(minimum=0), 1e-8)
+    top_features: int = key(rules.integer(1), 2000, doc="keep this many features, ranked by rank_by")
+    rank_by: str = key(rules.choice(*RANKINGS), "variance")
+    impute: str = key(rules.choice(*IMPUTERS), "knn")
+    impute_neighbours: int = key(rules.integer(1), 10)
+    scale: str = key(rules.choice(*SCALINGS), "zscore")
+    non_negative: str = key(rules.choice(*NON_NEGATIVITY), "shift", doc="how the NMF gets non-negative data")
+
+    def preprocessing(self) -> dict:
+        """Keyword arguments of `Preprocessor` (all but name, path, orientation and weight)."""
+        skipped = {"name", "path", "orientation", "weight"}
+        return {f.name: getattr(self, f.name) for f in fields(self) if f.name not in skipped}
 
 
 @dataclass(frozen=True)
@@ -90,16 +106,19 @@ class SubtypeSettings:
     pac_window: tuple[float, ...] = key(
         rules.list_of(rules.number(0, 1), "two numbers between 0 and 1, lower first"), (0.1, 0.9)
     )
+    pac_tolerance: float = key(rules.number(minimum=0), 0.02, doc="PAC differences below this are ties")
     core_threshold: float = key(rules.number(0, 1), 0.8, doc="mean consensus with the own subtype")
-    labelling: str = key(rules.choice("kmeans", "argmax"), "kmeans")
 
 
 @dataclass(frozen=True)
 class ResamplingSettings:
     """[resampling]: the consensus resamples and where they run."""
 
-    resamples: int = key(rules.integer(1), 30)
-    fraction: float = key(rules.number(maximum=1, above=0), 0.8)
+    resamples: int = key(rules.integer(2), 30)
+    fraction: float = key(rules.number(maximum=1, above=0), 0.8, doc="share of patients per resample")
+    feature_fraction: float = key(rules.number(maximum=1, above=0), 1.0, doc="share of features per resample")
+    restarts: int = key(rules.integer(1), 1, doc="NMF restarts per resample")
+    warm_start: bool = key(rules.flag(), False, doc="start resamples from the full-data factors")
     backend: str = key(rules.choice("serial", "processes", "dask"), "serial")
     jobs: int = key(rules.integer(1), 1)
     scheduler: str | None = key(rules.text(), None, doc="Dask scheduler address (backend = dask)")
@@ -110,10 +129,14 @@ class EvaluationSettings:
     """[evaluation]: survival, clinical association, markers and enrichment."""
 
     covariates: tuple[str, ...] = key(rules.list_of(rules.text(), "a list of column names"), ())
-    strata: tuple[str, ...] = key(rules.list_of(rules.text(), "a list of column names"), ())
+    strata: str | None = key(rules.text(), None, doc="clinical column for a stratified log-rank test")
     clinical_columns: tuple[str, ...] | None = key(
         rules.list_of(rules.text(), "a list of column names"), None, doc="omitted = all other columns"
     )
+    categorical_columns: tuple[str, ...] = key(
+        rules.list_of(rules.text(), "a list of column names"), (), doc="numeric columns to treat as categories"
+    )
+    monte_carlo: int = key(rules.integer(100), 2000, doc="draws for exact p-values of sparse tables")
     rmst_horizon: float | None = key(rules.number(above=0), None)
     permutations: int = key(rules.integer(0), 2000)
     min_group_size: int = key(rules.integer(1), 5)
@@ -121,6 +144,9 @@ class EvaluationSettings:
     marker_fdr: float = key(rules.number(maximum=1, above=0), 0.05)
     markers_per_subtype: int = key(rules.integer(1), 20)
     gene_sets: Path | None = key(rules.existing_file(), None)
+    gene_set_format: str = key(rules.choice("lines", "table"), "lines", doc="set, description, members / set, gene")
+    gene_set_modality: str | None = key(rules.text(), None, doc="modality whose markers are tested; omitted = first")
+    sets_per_subtype: int = key(rules.integer(1), 10)
     min_set_size: int = key(rules.integer(1), 5)
     max_set_size: int = key(rules.integer(1), 500)
 

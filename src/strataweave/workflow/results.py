@@ -1,0 +1,88 @@
+"""results.json: every number the report shows, in the keys of `strataweave.report.contract`."""
+
+from __future__ import annotations
+
+import dataclasses
+
+from strataweave.caution import CAUTION
+from strataweave.evaluate.result import plain
+from strataweave.workflow.config import Workflow
+from strataweave.workflow.grouping import ReportedGrouping
+from strataweave.workflow.sweeping import chosen_sweep
+
+
+def parameters(flow: Workflow) -> dict:
+    """The settings actually used, nested by workflow section (paths as text)."""
+    sections = {
+        name: dataclasses.asdict(getattr(flow, name))
+        for name in ("graph", "factorization", "subtypes", "resampling", "evaluation")
+    }
+    sections["graph"]["rule"] = flow.graph.fusion
+    return plain(
+        {
+            "seed": flow.seed,
+            **sections,
+            "modalities": [{"name": m.name, "weight": m.weight, **m.preprocessing()} for m in flow.modalities],
+        }
+    )
+
+
+def _cohort(grouping: ReportedGrouping, prepared: dict | None) -> dict:
+    modalities = []
+    if prepared is not None:
+        measured = prepared["presence"].loc[grouping.patients]
+        for row in prepared["qc"]:
+            modalities.append({**row, "patients": int(measured[row["name"]].sum())})
+    return {"patients": len(grouping.patients), "modalities": modalities}
+
+
+def _survival(part: dict) -> dict:
+    return {key: value for key, value in part["summary"].items() if key != "km"}
+
+
+def _markers(part: dict) -> list[dict]:
+    return [
+        {"modality": modality, "test": summary["test"], "patients": summary["n_patients"],
+         "features": summary["n_features"], "rows": summary["rows"]}
+        for modality, summary in part["summary"].items()
+    ]
+
+
+def _clinical(part: dict) -> list[dict]:
+    return [{**row, "dropped": row.get("n_missing", 0)} for row in part["summary"]["variables"]]
+
+
+def build_results(
+    flow: Workflow, stage_results: dict, grouping: ReportedGrouping, groups_given: bool
+) -> dict:
+    """The content of results.json for a run (`groups_given` False) or an evaluation of given groups."""
+    prepared = stage_results.get("prepare")
+    results: dict = {"caution": CAUTION, "subtype_count": len(grouping.names)}
+    results["report"] = {
+        "title": flow.report.title,
+        "show_patient_ids": flow.report.show_patient_ids,
+        "formats": list(flow.report.formats),
+    }
+    results["cohort"] = _cohort(grouping, prepared)
+    if "graphs" in stage_results:
+        results["graph"] = stage_results["graphs"]["summary"]
+    if groups_given:
+        results["subtypes"] = {"labels": grouping.names, "sizes": grouping.sizes, "given": True}
+    else:
+        sections = chosen_sweep(stage_results["sweep"], stage_results["select"]).to_dict()
+        results["selection"] = sections["selection"]
+        results["subtypes"] = sections["subtypes"]
+        results["baselines"] = sections["baselines"]
+    evaluation = stage_results["evaluate"]
+    if "survival" in evaluation:
+        results["survival"] = _survival(evaluation["survival"])
+    results["clinical"] = _clinical(evaluation["clinical"])
+    if "markers" in evaluation:
+        results["markers"] = _markers(evaluation["markers"])
+    if "enrichment" in evaluation:
+        results["enrichment"] = evaluation["enrichment"]["summary"]["rows"]
+        results["enrichment_summary"] = {
+            key: value for key, value in evaluation["enrichment"]["summary"].items() if key != "rows"
+        }
+    results["parameters"] = parameters(flow)
+    return plain(results)
