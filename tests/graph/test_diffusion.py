@@ -65,3 +65,18 @@ def test_diffusion_of_two_identical_graphs_keeps_their_neighbour_structure():
     assert overlap > 0.8
     labels = np.repeat(np.arange(3), 15)
     assert (labels[top] == labels[:, None]).mean() > 0.95
+
+
+def test_sparse_blocks_give_the_same_diffusion_as_dense_products(monkeypatch):
+    from strataweave.graph import diffusion, metrics
+
+    rng = np.random.default_rng(13)
+    ids = [f"p{i}" for i in range(60)]
+    data = {"a": pd.DataFrame(rng.normal(size=(60, 4)), index=ids),
+            "b": pd.DataFrame(rng.normal(size=(50, 3)), index=ids[10:])}
+    options = {"rule": "diffusion", "n_neighbours": 6, "diffusion_iterations": 3}
+    dense = fuse_modalities(data, **options).affinity
+    monkeypatch.setattr(diffusion, "DENSE_LIMIT", 10)
+    monkeypatch.setattr(metrics, "BLOCK_ELEMENTS", 13 * 60)  # several row blocks
+    sparse = fuse_modalities(data, **options).affinity
+    np.testing.assert_allclose(sparse.toarray(), dense.toarray(), rtol=1e-12, atol=1e-15)

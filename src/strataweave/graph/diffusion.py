@@ -19,6 +19,9 @@ import scipy.sparse as sp
 from strataweave.graph.metrics import block_rows
 from strataweave.graph.pairs import row_ranks
 
+# Up to this many patients each product is formed densely (fast, at most ~20 MB per matrix).
+DENSE_LIMIT = 1600
+
 
 def diffuse(left, right, values, presence: np.ndarray, n_neighbours: int, iterations: int,
             progress: Callable[[int], None] | None = None) -> np.ndarray:
@@ -74,7 +77,12 @@ def _local_matrix(rows, cols, diagonal, kernel, n, n_neighbours) -> sp.csr_matri
 
 
 def _masked_product(local: sp.csr_matrix, mixed: np.ndarray, rows, cols, n) -> np.ndarray:
-    """(S X S^T) read at the support entries, computed in blocks of rows."""
+    """(S X S^T) read at the support entries: densely for small cohorts, else in blocks of rows."""
+    if n <= DENSE_LIMIT:
+        middle = np.zeros((n, n))
+        middle[rows, cols] = mixed
+        left_product = local @ middle
+        return (local @ left_product.T).T[rows, cols]
     middle = sp.csr_matrix((mixed, (rows, cols)), shape=(n, n))
     local_t = local.T.tocsr()
     out = np.empty(len(rows))
@@ -84,6 +92,7 @@ def _masked_product(local: sp.csr_matrix, mixed: np.ndarray, rows, cols, n) -> n
     for start in range(0, n, step):
         stop = min(start + step, n)
         block = (local[start:stop] @ middle @ local_t).tocsr()
+        block.sort_indices()
         lo, hi = np.searchsorted(sorted_rows, [start, stop])
         entries = order[lo:hi]
         out[entries] = np.asarray(block[rows[entries] - start, cols[entries]]).ravel()

@@ -19,7 +19,7 @@ from strataweave.graph.diffusion import diffuse
 from strataweave.graph.kernels import default_bandwidth, gaussian, local_scales, scaled_exponential
 from strataweave.graph.metrics import paired_distances, prepare_rows
 from strataweave.graph.neighbours import nearest_neighbours
-from strataweave.graph.pairs import neighbour_pairs, strongest_pairs, symmetric_matrix, unique_pairs
+from strataweave.graph.pairs import neighbour_pairs, pair_codes, strongest_pairs, symmetric_matrix, unique_pairs
 from strataweave.graph.patient_graph import PatientGraph
 from strataweave.graph.rules import check_rule, combine_values
 
@@ -29,9 +29,16 @@ class _ModalityKernel:
     """What one modality needs to evaluate its kernel on any pair of its patients."""
 
     positions: np.ndarray  # global position of each of its patients
-    neighbours: np.ndarray  # n_v x k nearest neighbours, local positions
     scales: np.ndarray  # local scale per patient
     bandwidth: float
+    own_codes: np.ndarray  # its own nearest-neighbour pairs (global pair codes, sorted) ...
+    own_distances: np.ndarray  # ... and their distances, reused when the pairs are fused
+
+    def values(self, local_left, local_right, distances, kernel: str, spread: float) -> np.ndarray:
+        """Kernel values for pairs of its patients (local positions) at the given distances."""
+        if kernel == "gaussian":
+            return gaussian(distances, self.bandwidth)
+        return scaled_exponential(distances, self.scales[local_left], self.scales[local_right], spread)
 
 
 def fuse_modalities(
@@ -73,25 +80,22 @@ def fuse_modalities(
 
     finished = 0
     kernels: dict[str, _ModalityKernel] = {}
+    modality_graphs = {}
     for name in names:
-        neighbours, distances = nearest_neighbours(prepare_rows(matrices[name], metrics[name]), n_neighbours)
-        kernels[name] = _ModalityKernel(
-            positions=patients.get_indexer(frames[name].index),
-            neighbours=neighbours,
-            scales=local_scales(distances),
-            bandwidth=bandwidth if bandwidth is not None else default_bandwidth(distances),
+        kernels[name], modality_graphs[name] = _modality_pass(
+            matrices[name], metrics[name], patients.get_indexer(frames[name].index), n, n_neighbours,
+            kernel, kernel_spread, bandwidth,
         )
         finished += 1
         if progress is not None:
             progress(finished)
 
-    directed = [neighbour_pairs(kernels[name].positions, kernels[name].neighbours) for name in names]
-    left, right = unique_pairs(np.concatenate([d[0] for d in directed]), np.concatenate([d[1] for d in directed]), n)
+    candidates = np.unique(np.concatenate([kernels[name].own_codes for name in names]))
+    left, right = candidates // n, candidates % n
     values = np.full((len(left), len(names)), np.nan)
     for column, name in enumerate(names):
-        values[:, column] = _kernel_on_pairs(
-            matrices[name], metrics[name], kernels[name], left, right, n, kernel, kernel_spread
-        )
+        values[:, column] = _kernel_on_pairs(matrices[name], metrics[name], kernels[name], left, right, n,
+                                             kernel, kernel_spread)
         finished += 1
         if progress is not None:
             progress(finished)
@@ -109,10 +113,7 @@ def fuse_modalities(
         affinity=symmetric_matrix(left[keep], right[keep], weights[keep], n),
         rule=rule,
         fallback_patients=patients[fallback],
-        modality_graphs={
-            name: _modality_graph(directed[column], left, right, values[:, column], n)
-            for column, name in enumerate(names)
-        },
+        modality_graphs=modality_graphs,
         presence=presence,
         parameters={
             "rule": rule, "quorum": quorum, "n_neighbours": int(n_neighbours), "metric": metrics,
@@ -130,19 +131,47 @@ def _union_in_order(indexes: list[pd.Index]) -> pd.Index:
     return pd.Index(combined[~combined.duplicated()], name="patient_id")
 
 
-def _kernel_on_pairs(matrix, metric, modality: _ModalityKernel, left, right, n, kernel, spread) -> np.ndarray:
-    """Kernel value of one modality on every candidate pair; NaN where a patient lacks it."""
+def _modality_pass(matrix, metric, positions, n, n_neighbours, kernel, spread, bandwidth):
+    """Nearest neighbours of one modality and its own k-nearest-neighbour kernel graph."""
+    neighbours, distances = nearest_neighbours(prepare_rows(matrix, metric), n_neighbours)
+    own_rows, own_cols = neighbour_pairs(positions, neighbours)
+    own_left, own_right, source = unique_pairs(own_rows, own_cols, n)
+    modality = _ModalityKernel(
+        positions=positions,
+        scales=local_scales(distances),
+        bandwidth=bandwidth if bandwidth is not None else default_bandwidth(distances),
+        own_codes=pair_codes(own_left, own_right, n),
+        own_distances=distances.ravel()[source],
+    )
+    local = _local_positions(positions, n)
+    own_values = modality.values(local[own_left], local[own_right], modality.own_distances, kernel, spread)
+    return modality, symmetric_matrix(own_left, own_right, own_values, n)
+
+
+def _local_positions(positions: np.ndarray, n: int) -> np.ndarray:
+    """Row of each patient in the modality's matrix, -1 where the patient lacks it."""
     local = np.full(n, -1, dtype=np.int64)
-    local[modality.positions] = np.arange(len(modality.positions))
+    local[positions] = np.arange(len(positions))
+    return local
+
+
+def _kernel_on_pairs(matrix, metric, modality: _ModalityKernel, left, right, n, kernel, spread) -> np.ndarray:
+    """Kernel value of one modality on every candidate pair; NaN where a patient lacks it.
+
+    Distances of the modality's own neighbour pairs are reused; only the others are computed.
+    """
+    local = _local_positions(modality.positions, n)
     a, b = local[left], local[right]
     both = (a >= 0) & (b >= 0)
     a, b = a[both], b[both]
-    distances = paired_distances(prepare_rows(matrix, metric), a, b)
+    codes = pair_codes(left[both], right[both], n)
+    at = np.minimum(np.searchsorted(modality.own_codes, codes), len(modality.own_codes) - 1)
+    known = modality.own_codes[at] == codes
+    distances = np.empty(len(codes))
+    distances[known] = modality.own_distances[at[known]]
+    distances[~known] = paired_distances(prepare_rows(matrix, metric), a[~known], b[~known])
     out = np.full(len(left), np.nan)
-    if kernel == "gaussian":
-        out[both] = gaussian(distances, modality.bandwidth)
-    else:
-        out[both] = scaled_exponential(distances, modality.scales[a], modality.scales[b], spread)
+    out[both] = modality.values(a, b, distances, kernel, spread)
     return out
 
 
@@ -159,10 +188,3 @@ def _sparsified_with_fallback(left, right, fused, values, n, n_neighbours) -> tu
     average = combine_values(values, "average")
     added = strongest_pairs(left, right, average, n, n_neighbours, only=lonely) & ~keep
     return np.where(added, average, weights), lonely
-
-
-def _modality_graph(directed, left, right, column_values, n):
-    """One modality's own k-nearest-neighbour kernel graph, read from the candidate values."""
-    own_left, own_right = unique_pairs(directed[0], directed[1], n)
-    at = np.searchsorted(left * n + right, own_left * n + own_right)
-    return symmetric_matrix(own_left, own_right, column_values[at], n)

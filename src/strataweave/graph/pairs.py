@@ -12,12 +12,20 @@ def neighbour_pairs(patient_ids: np.ndarray, neighbour_indices: np.ndarray) -> t
     return rows, patient_ids[neighbour_indices.ravel()]
 
 
-def unique_pairs(rows: np.ndarray, cols: np.ndarray, n_patients: int) -> tuple[np.ndarray, np.ndarray]:
-    """Undirected pairs (left < right) without repeats, sorted; self pairs dropped."""
+def unique_pairs(rows: np.ndarray, cols: np.ndarray, n_patients: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Undirected pairs (left < right) without repeats, sorted, and the input position of each.
+
+    Self pairs are dropped. The sort key is left * n_patients + right (see `pair_codes`).
+    """
     left, right = np.minimum(rows, cols), np.maximum(rows, cols)
-    keep = left != right
-    codes = np.unique(left[keep].astype(np.int64) * n_patients + right[keep])
-    return codes // n_patients, codes % n_patients
+    kept = np.flatnonzero(left != right)
+    codes, first = np.unique(pair_codes(left[kept], right[kept], n_patients), return_index=True)
+    return codes // n_patients, codes % n_patients, kept[first]
+
+
+def pair_codes(left: np.ndarray, right: np.ndarray, n_patients: int) -> np.ndarray:
+    """One sortable integer per pair (left < right)."""
+    return left.astype(np.int64) * n_patients + right
 
 
 def symmetric_matrix(left, right, values, n_patients: int) -> sp.csr_matrix:
