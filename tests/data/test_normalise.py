@@ -9,7 +9,8 @@ from scipy.stats import median_abs_deviation, zscore
 from sklearn.impute import KNNImputer
 
 from strataweave.data import Preprocessor
-from strataweave.data.filters import top_ranked
+from strataweave.data.filters import feature_mad, top_ranked
+from strataweave.data.moments import feature_median
 from strataweave.data.normalise import log2_cpm, m_values, quantile_apply, quantile_reference
 
 
@@ -102,6 +103,19 @@ def test_top_features_by_variance_and_mad_match_pandas_and_scipy():
     by_mad = top_ranked(values, 7, "mad")
     expected_mad = np.argsort(-median_abs_deviation(values, axis=0))[:7]
     assert set(np.flatnonzero(by_mad)) == set(expected_mad)
+
+
+def test_medians_and_mad_with_missing_cells_match_numpy_and_scipy():
+    # Reference libraries: numpy.nanmedian and scipy.stats.median_abs_deviation(nan_policy="omit").
+    rng = np.random.default_rng(10)
+    values = rng.normal(size=(31, 50))
+    values[rng.random(values.shape) < 0.3] = np.nan
+    values[:, 7] = np.nan
+    observed = ~np.isnan(values).all(axis=0)
+    np.testing.assert_allclose(feature_median(values)[observed], np.nanmedian(values[:, observed], axis=0))
+    assert feature_median(values)[7] == 0.0
+    expected = median_abs_deviation(values[:, observed], axis=0, nan_policy="omit")
+    np.testing.assert_allclose(feature_mad(values)[observed], expected)
 
 
 def test_missing_and_variance_filters_drop_the_right_features():

@@ -6,8 +6,8 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from strataweave import InputError
 from strataweave.data import Preprocessor, read_clinical, read_matrix
+from strataweave.data.cells import quick_numbers, read_table
 from strataweave.files import sha256_file
 
 PATIENTS = ["P01", "P02", "P03"]
@@ -42,6 +42,9 @@ def _expected() -> pd.DataFrame:
         ("m.csv", _features_in_rows(",")),
         ("m.txt", _samples_in_rows("\t")),
         ("m.csv", "# comment line\n# another\n" + _samples_in_rows(",")),
+        # Quoted fields take the CSV-module path instead of the fast parser: same result.
+        ("m.csv", "\n".join('"' + line.replace(",", '","') + '"' for line in _samples_in_rows(",").splitlines())),
+        ("m.csv", _samples_in_rows(",").replace("6.5", " 6.5 ")),
     ],
 )
 def test_both_orientations_are_detected_from_clinical_ids(tmp_path, name, text):
@@ -89,3 +92,13 @@ def test_reading_and_preprocessing_never_modify_inputs(tmp_path):
     Preprocessor("counts", max_missing_fraction=1.0, impute="median").fit_transform(raw)
     assert sha256_file(path) == before
     pd.testing.assert_frame_equal(raw, copy)
+
+
+def test_plain_numeric_table_takes_the_fast_parser(tmp_path):
+    path = tmp_path / "m.tsv"
+    path.write_text(_features_in_rows("\t"))
+    header, labels, values = quick_numbers(read_table(path))
+    assert list(header) == ["feature", *PATIENTS] and list(labels) == FEATURES
+    np.testing.assert_array_equal(values, VALUES.T)
+    path.write_text(_features_in_rows("\t").replace("6.5", "six"))
+    assert quick_numbers(read_table(path)) is None

@@ -10,6 +10,7 @@ from __future__ import annotations
 import csv
 import gzip
 import io
+import re
 import zlib
 from dataclasses import dataclass
 from pathlib import Path
@@ -21,6 +22,7 @@ from strataweave.data.positions import input_error
 
 _GZIP_MAGIC = b"\x1f\x8b"
 _PARQUET_MAGIC = b"PAR1"
+MISSING_TOKENS = ("", "NA", "NaN", "nan", "N/A", "NULL", "null")
 
 
 @dataclass(frozen=True)
@@ -34,8 +36,24 @@ class CellTable:
     unit: str = "line"
 
 
+@dataclass(frozen=True)
+class TableText:
+    """A delimited text table not yet split into cells: its lines from the header on."""
+
+    source: str
+    lines: list[str]
+    first_line: int
+    separator: str
+
+
 def read_cells(path) -> CellTable:
     """Read `path` into a CellTable; InputError for anything that is not a rectangular table."""
+    table = read_table(path)
+    return table if isinstance(table, CellTable) else split_cells(table)
+
+
+def read_table(path) -> TableText | CellTable:
+    """Text files as TableText (decoded, comments skipped), Parquet files as CellTable."""
     source = str(path)
     try:
         raw = Path(path).read_bytes()
@@ -48,7 +66,7 @@ def read_cells(path) -> CellTable:
             raw = gzip.decompress(raw)
         except (OSError, EOFError, zlib.error):
             raise input_error(source, "file", "a damaged gzip stream", "a complete gzip file") from None
-    return _text_cells(source, _decode(source, raw), _separator(source))
+    return _table_text(source, _decode(source, raw), _separator(source))
 
 
 def _decode(source: str, raw: bytes) -> str:
@@ -72,7 +90,7 @@ def _separator(source: str) -> str | None:
     return None
 
 
-def _text_cells(source: str, text: str, separator: str | None) -> CellTable:
+def _table_text(source: str, text: str, separator: str | None) -> TableText:
     lines = text.splitlines()
     skipped = 0
     while skipped < len(lines) and lines[skipped].startswith("#"):
@@ -81,19 +99,58 @@ def _text_cells(source: str, text: str, separator: str | None) -> CellTable:
         lines.pop()
     if len(lines) <= skipped:
         raise input_error(source, "file", "no table (empty file)", "a header line and data lines")
-    header_line = lines[skipped]
     if separator is None:
-        separator = "\t" if "\t" in header_line else ","
-    reader = csv.reader(io.StringIO("\n".join(lines[skipped:])), delimiter=separator, strict=True)
+        separator = "\t" if "\t" in lines[skipped] else ","
+    return TableText(source, lines[skipped:], first_line=skipped + 2, separator=separator)
+
+
+def split_cells(text: TableText) -> CellTable:
+    """Split every line into fields (CSV quoting rules); each row must match the header's width."""
+    reader = csv.reader(io.StringIO("\n".join(text.lines)), delimiter=text.separator, strict=True)
     try:
         rows = list(reader)
     except csv.Error:
-        where = f"line {skipped + reader.line_num}"
-        raise input_error(source, where, "malformed quoting", "fields quoted in CSV style") from None
-    _require_full_rows(source, rows, header_line=skipped + 1)
+        where = f"line {text.first_line - 2 + reader.line_num}"
+        raise input_error(text.source, where, "malformed quoting", "fields quoted in CSV style") from None
+    _require_full_rows(text.source, rows, header_line=text.first_line - 1)
     cells = np.empty((len(rows), len(rows[0])), dtype=object)
     cells[:] = rows
-    return CellTable(source, cells[0], cells[1:], first_line=skipped + 2)
+    return CellTable(text.source, cells[0], cells[1:], first_line=text.first_line)
+
+
+def quick_numbers(text: TableText) -> tuple[np.ndarray, np.ndarray, np.ndarray] | None:
+    """Header, first-column labels and float values via pandas' C parser, or None.
+
+    The fast path for large matrices. None (take the slow path, which names the faulty
+    line or cell) when the table has quotes, uneven rows, or a value column that is not
+    entirely numbers and missing tokens.
+    """
+    separator = text.separator
+    if len(text.lines) < 2 or any('"' in line for line in text.lines):
+        return None
+    widths = pd.Series(text.lines).str.count(re.escape(separator)).to_numpy()
+    if (widths != widths[0]).any() or widths[0] == 0:
+        return None
+    width = int(widths[0]) + 1
+    try:
+        frame = pd.read_csv(
+            io.StringIO("\n".join(text.lines[1:])),
+            sep=separator,
+            header=None,
+            names=range(width),
+            dtype={0: str},
+            na_values={j: list(MISSING_TOKENS) for j in range(1, width)},
+            keep_default_na=False,
+            quoting=csv.QUOTE_NONE,
+            engine="c",
+        )
+    except (ValueError, pd.errors.ParserError):
+        return None
+    values = frame.iloc[:, 1:]
+    if not all(dtype.kind in "iuf" for dtype in values.dtypes) or frame[0].isna().any():
+        return None
+    header = np.array(text.lines[0].split(separator), dtype=object)
+    return header, frame[0].to_numpy(dtype=object), values.to_numpy(dtype=np.float64)
 
 
 def _require_full_rows(source: str, rows: list[list[str]], header_line: int) -> None:

@@ -2,12 +2,9 @@
 
 from __future__ import annotations
 
-from functools import partial
-
 import numpy as np
-from scipy.stats import median_abs_deviation
 
-from strataweave.data.moments import observed_moments, per_feature
+from strataweave.data.moments import feature_median, observed_moments
 
 RANKINGS = ("variance", "mad")
 
@@ -36,8 +33,13 @@ def top_ranked(values: np.ndarray, n_features: int, rank_by: str) -> np.ndarray:
     if rank_by == "variance":
         spread = feature_variance(values)
     else:
-        spread = per_feature(values, partial(median_abs_deviation, nan_policy="omit"))
+        spread = feature_mad(values)
     order = np.argsort(-spread, kind="stable")[:n_features]
     keep = np.zeros(values.shape[1], dtype=bool)
     keep[order] = True
     return keep
+
+
+def feature_mad(values: np.ndarray) -> np.ndarray:
+    """Median absolute deviation from the median (unscaled) of each feature over its observed cells."""
+    return feature_median(np.abs(values - feature_median(values)[None, :]))

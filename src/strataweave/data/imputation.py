@@ -5,8 +5,6 @@ from __future__ import annotations
 import numpy as np
 from sklearn.impute import KNNImputer
 
-from strataweave.data.moments import per_feature
-
 IMPUTERS = ("knn", "median", "none")
 
 
@@ -18,11 +16,6 @@ def knn_fill(values: np.ndarray, reference: np.ndarray, neighbours: int) -> np.n
     """
     imputer = KNNImputer(n_neighbors=min(neighbours, reference.shape[0]), keep_empty_features=True)
     return imputer.fit(reference).transform(values)
-
-
-def feature_medians(values: np.ndarray) -> np.ndarray:
-    """Median of each feature over its observed cells (0 for a feature with none)."""
-    return per_feature(values, np.nanmedian)
 
 
 def median_fill(values: np.ndarray, medians: np.ndarray) -> np.ndarray:

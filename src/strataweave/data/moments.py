@@ -18,12 +18,20 @@ def observed_moments(values: np.ndarray, ddof: int) -> tuple[np.ndarray, np.ndar
     return count, mean, variance
 
 
-def per_feature(values: np.ndarray, statistic) -> np.ndarray:
-    """`statistic(columns, axis=0)` over the features with at least one observed cell; 0 for the others.
+def feature_median(values: np.ndarray) -> np.ndarray:
+    """Median of each column over its observed cells (0 for a column with none).
 
-    Keeps nan-aware reducers (nanmedian, nanmin, ...) from warning about empty features.
+    One sort for all columns (NaN sorts last), so no per-column Python loop.
     """
-    observed = ~np.isnan(values).all(axis=0)
-    out = np.zeros(values.shape[1])
-    out[observed] = statistic(values[:, observed], axis=0)
-    return out
+    ordered = np.sort(values, axis=0)
+    count = (~np.isnan(values)).sum(axis=0)
+    low = np.maximum((count - 1) // 2, 0)[None, :]
+    high = np.maximum(count // 2 - (count == 0), 0)[None, :]
+    middle = (np.take_along_axis(ordered, low, axis=0) + np.take_along_axis(ordered, high, axis=0))[0] / 2.0
+    return np.where(count > 0, middle, 0.0)
+
+
+def feature_minimum(values: np.ndarray) -> np.ndarray:
+    """Smallest observed value of each column (0 for a column with none)."""
+    minimum = np.where(np.isnan(values), np.inf, values).min(axis=0, initial=np.inf)
+    return np.where(np.isinf(minimum), 0.0, minimum)

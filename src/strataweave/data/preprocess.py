@@ -15,7 +15,7 @@ from collections.abc import Callable
 import numpy as np
 import pandas as pd
 
-from strataweave.data import filters, imputation, normalise, scaling
+from strataweave.data import filters, imputation, moments, normalise, scaling
 from strataweave.data.positions import input_error, shown
 from strataweave.data.validation import KINDS, checked_frame
 
@@ -192,7 +192,7 @@ class Preprocessor:
     def _fit_impute(self, values, features) -> Step:
         if self.impute == "knn":
             return {"step": "impute", "method": "knn", "neighbours": self.impute_neighbours, "reference": values}
-        return {"step": "impute", "method": "median", "medians": imputation.feature_medians(values)}
+        return {"step": "impute", "method": "median", "medians": moments.feature_median(values)}
 
 
 def _fit_quantile(values, features) -> Step:
@@ -205,7 +205,7 @@ def _fit_zscore(values, features) -> Step:
 
 
 def _fit_shift(values, features) -> Step:
-    return {"step": "shift", "minimum": scaling.feature_minimum(values)}
+    return {"step": "shift", "minimum": moments.feature_minimum(values)}
 
 
 def _apply_kind(step, values, features):

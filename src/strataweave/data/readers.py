@@ -7,10 +7,9 @@ from collections.abc import Iterable
 import numpy as np
 import pandas as pd
 
-from strataweave.data.cells import read_cells
+from strataweave.data.cells import MISSING_TOKENS, CellTable, TableText, quick_numbers, read_cells, read_table, split_cells
 from strataweave.data.positions import TablePositions, input_error, shown
 from strataweave.data.validation import (
-    MISSING_TOKENS,
     check_identifiers,
     check_kind,
     check_values,
@@ -68,19 +67,26 @@ def read_matrix(
     whitespace. When `kind` is given, values are checked against its range (counts and
     abundances non-negative, beta values in [0, 1]).
     """
-    table = read_cells(path)
+    table = read_table(path)
+    quick = quick_numbers(table) if isinstance(table, TableText) else None
+    cells = None if quick is not None else (table if isinstance(table, CellTable) else split_cells(table))
+    if quick is not None:
+        header, labels, values = quick
+    else:
+        header, labels, values = cells.header, cells.body[:, 0], None
     source = table.source if name is None else f"{table.source} (modality {shown(name)})"
     if kind is not None:
         check_kind(kind, source)
-    if table.body.shape[0] == 0 or table.header.size < 2:
-        raise input_error(source, "file", f"{table.body.shape[0]} data rows and {table.header.size} columns",
+    if labels.size == 0 or header.size < 2:
+        raise input_error(source, "file", f"{labels.size} data rows and {header.size} columns",
                           "a header, at least one data row and at least two columns")
-    positions = TablePositions(source, pd.Index(table.body[:, 0]), pd.Index(table.header[1:]),
-                               table.first_line, table.unit)
+    unit = "line" if cells is None else cells.unit
+    positions = TablePositions(source, pd.Index(labels), pd.Index(header[1:]), table.first_line, unit)
     rows = check_identifiers(positions.row_labels, positions, "row")
     columns = check_identifiers(positions.column_labels, positions, "column")
     orientation = _orientation(orientation, rows, columns, known_ids, source)
-    values = parse_numbers(table.body[:, 1:], positions)
+    if values is None:
+        values = parse_numbers(cells.body[:, 1:], positions)
     check_values(values, positions, kind)
     frame = pd.DataFrame(values, index=rows, columns=columns)
     if orientation == "features_in_rows":

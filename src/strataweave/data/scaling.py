@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from strataweave.data.moments import observed_moments, per_feature
+from strataweave.data.moments import observed_moments
 
 SCALINGS = ("zscore", "none")
 NON_NEGATIVITY = ("shift", "split", "none")
@@ -25,11 +25,6 @@ def feature_mean_std(values: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
 def zscore(values: np.ndarray, mean: np.ndarray, std: np.ndarray) -> np.ndarray:
     """(value - fitted mean) / fitted standard deviation, per feature."""
     return (values - mean[None, :]) / std[None, :]
-
-
-def feature_minimum(values: np.ndarray) -> np.ndarray:
-    """Smallest observed value of each feature (0 for a feature with none)."""
-    return per_feature(values, np.nanmin)
 
 
 def shift_non_negative(values: np.ndarray, minimum: np.ndarray) -> np.ndarray:

@@ -5,10 +5,10 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from strataweave.data.cells import MISSING_TOKENS
 from strataweave.data.positions import TablePositions, input_error, shown
 
 KINDS = ("counts", "beta", "abundance", "log_expression", "copy_number")
-MISSING_TOKENS = ("", "NA", "NaN", "nan", "N/A", "NULL", "null")
 
 # kind -> (lowest allowed, highest allowed, words for what is expected)
 _VALUE_RANGES = {
