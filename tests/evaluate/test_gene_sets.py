@@ -18,23 +18,23 @@ def test_read_tab_separated_lines(tmp_path):
     assert read_gene_set_lines(path) == {"alpha": ["GENA", "GENB"], "beta": ["GENC"]}
 
 
-def test_table_errors_name_file_and_line(tmp_path):
-    path = tmp_path / "sets.tsv"
-    path.write_text("name\tgene\n", encoding="utf-8")
-    with pytest.raises(InputError, match=r"sets.tsv, line 1: no column 'set'"):
-        read_gene_set_table(path)
-    path.write_text("set\tgene\nalpha\tGENA\nbeta\n", encoding="utf-8")
-    with pytest.raises(InputError, match=r"sets.tsv, line 3: found 'beta', expected a set name and a gene"):
-        read_gene_set_table(path)
-
-
-def test_line_errors_name_file_and_line(tmp_path):
+@pytest.mark.parametrize(
+    ("reader", "text", "message"),
+    [
+        (read_gene_set_table, "name\tgene\n", r"sets.txt, line 1: no column 'set'"),
+        (read_gene_set_table, "set\tgene\nalpha\tGENA\nbeta\n", r"sets.txt, line 3: found 'beta', expected a set name and a gene"),
+        (read_gene_set_table, "", r"sets.txt: file is empty"),
+        (read_gene_set_lines, "alpha\tdesc\tGENA\nbeta\tdesc\n", r"sets.txt, line 2: found 0 member\(s\) for set 'beta'"),
+        (read_gene_set_lines, "alpha\tdesc\tGENA\nalpha\tdesc\tGENB\n", r"sets.txt, line 2: set 'alpha' appears again"),
+    ],
+)
+def test_errors_name_file_and_line(tmp_path, reader, text, message):
     path = tmp_path / "sets.txt"
-    path.write_text("alpha\tdesc\tGENA\nbeta\tdesc\n", encoding="utf-8")
-    with pytest.raises(InputError, match=r"sets.txt, line 2: found 0 member\(s\) for set 'beta'"):
-        read_gene_set_lines(path)
-    path.write_text("alpha\tdesc\tGENA\nalpha\tdesc\tGENB\n", encoding="utf-8")
-    with pytest.raises(InputError, match=r"line 2: set 'alpha' appears again"):
-        read_gene_set_lines(path)
-    with pytest.raises(InputError, match="cannot be read"):
+    path.write_text(text, encoding="utf-8")
+    with pytest.raises(InputError, match=message):
+        reader(path)
+
+
+def test_unreadable_file_raises(tmp_path):
+    with pytest.raises(InputError, match="absent.txt: cannot be read"):
         read_gene_set_lines(tmp_path / "absent.txt")

@@ -1,9 +1,10 @@
 """Multi-group log-rank test: asymptotic, stratified and by label permutation (vectorised).
 
 The score of group g is U_g = sum over its patients of (event - cumulative hazard at the patient's
-time), which is O_g - E_g. Its covariance is V = diag(sum_g A) - N' diag(b) N, where N holds the
-numbers at risk per group at each event time. Only N depends on the labels, so permutations
-recompute N with cumulative sums over many permuted label rows at once.
+time), which is O_g - E_g. Its covariance is V = diag(sum over g's patients of the cumulative
+w_j / n_j) - N diag(w_j / n_j**2) N', where N holds the numbers at risk per group at each event
+time and w_j = d_j (n_j - d_j) / (n_j - 1). Permutations recompute U and V for many shuffled
+label rows at once with matrix products and one cumulative count.
 """
 
 from __future__ import annotations
@@ -18,13 +19,13 @@ from strataweave.evaluate.permutation import permutation_p
 
 @dataclass(frozen=True)
 class _RiskSets:
-    """Label-free quantities of one stratum, patients in the caller's order."""
+    """Label-free quantities of one stratum, patients sorted by time (`order`)."""
 
     order: np.ndarray  # patient positions sorted by time
     first_at_risk: np.ndarray  # per event time with variance weight: first sorted position still at risk
     quadratic_weight: np.ndarray  # w_j / n_j**2 per such event time
-    score: np.ndarray  # event - cumulative hazard, per patient
-    diagonal: np.ndarray  # cumulative w_j / n_j, per patient
+    score: np.ndarray  # event - cumulative hazard, per sorted patient
+    diagonal: np.ndarray  # cumulative w_j / n_j, per sorted patient
 
 
 def _risk_sets(time: np.ndarray, event: np.ndarray) -> _RiskSets:
@@ -35,37 +36,37 @@ def _risk_sets(time: np.ndarray, event: np.ndarray) -> _RiskSets:
     hazard = deaths / at_risk
     with np.errstate(invalid="ignore", divide="ignore"):
         weight = np.where(at_risk > 1, deaths * (at_risk - deaths) / (at_risk - 1), 0.0)
-    patient_time = np.empty(time.size, dtype=np.intp)
-    patient_time[order] = inverse
     keep = weight > 0
     return _RiskSets(
         order=order,
         first_at_risk=first[keep],
         quadratic_weight=weight[keep] / at_risk[keep] ** 2,
-        score=event - np.cumsum(hazard)[patient_time],
-        diagonal=np.cumsum(weight / at_risk)[patient_time],
+        score=event[order] - np.cumsum(hazard)[inverse],
+        diagonal=np.cumsum(weight / at_risk)[inverse],
     )
 
 
-def _scores_and_covariance(risk: _RiskSets, codes: np.ndarray, n_groups: int) -> tuple[np.ndarray, np.ndarray]:
-    """U (rows x groups) and V (rows x groups x groups) for each row of label codes (rows x patients)."""
-    rows = codes.shape[0]
-    offset = (np.arange(rows) * n_groups)[:, None]
-    flat = (codes + offset).ravel()
-    size = rows * n_groups
-    scores = np.bincount(flat, weights=np.broadcast_to(risk.score, codes.shape).ravel(), minlength=size)
-    diagonal = np.bincount(flat, weights=np.broadcast_to(risk.diagonal, codes.shape).ravel(), minlength=size)
-    sorted_codes = codes[:, risk.order]
-    one_hot = sorted_codes[:, :, None] == np.arange(n_groups)
-    at_risk = np.cumsum(one_hot[:, ::-1, :], axis=1, dtype=np.int32)[:, ::-1, :][:, risk.first_at_risk, :]
-    weighted = at_risk * risk.quadratic_weight[None, :, None]
-    covariance = -np.matmul(weighted.transpose(0, 2, 1), at_risk.astype(float))
-    covariance[:, np.arange(n_groups), np.arange(n_groups)] += diagonal.reshape(rows, n_groups)
-    return scores.reshape(rows, n_groups), covariance
+def _scores_and_covariance(risk: _RiskSets, sorted_codes: np.ndarray, n_groups: int) -> tuple[np.ndarray, np.ndarray]:
+    """U and V of the first G - 1 groups for each row of label codes in time order.
+
+    The last group is left out: its score and numbers at risk follow from the others, and the
+    (G-1)-dimensional form is the usual chi-square. Numbers at risk come from a forward
+    cumulative count: group size minus the members seen before the event time.
+    """
+    kept = n_groups - 1
+    one_hot = (sorted_codes[:, None, :] == np.arange(kept)[None, :, None]).astype(float)  # rows x (G-1) x N
+    scores = one_hot @ risk.score
+    diagonal = one_hot @ risk.diagonal
+    seen = np.cumsum(one_hot, axis=2)
+    before = np.where(risk.first_at_risk > 0, seen[:, :, risk.first_at_risk - 1], 0.0)
+    at_risk = seen[:, :, -1:] - before  # rows x (G-1) x event times
+    covariance = -np.matmul(at_risk * risk.quadratic_weight, at_risk.transpose(0, 2, 1))
+    covariance[:, np.arange(kept), np.arange(kept)] += diagonal
+    return scores, covariance
 
 
 def _chi_square(scores: np.ndarray, covariance: np.ndarray) -> np.ndarray:
-    """U' V^+ U per row; equals the usual (G-1)-dimensional form when V has rank G-1."""
+    """U' V^+ U per row (the pseudo-inverse keeps degenerate permutations finite)."""
     solved = np.matmul(np.linalg.pinv(covariance, hermitian=True), scores[:, :, None])[:, :, 0]
     return np.einsum("rg,rg->r", scores, solved)
 
@@ -94,11 +95,12 @@ def logrank_test(time, event, labels, strata=None) -> LogrankResult:
     event = np.asarray(event, dtype=float)
     codes, n_groups = _encode(labels)
     strata_codes = np.zeros(time.size, dtype=np.intp) if strata is None else _encode(strata)[0]
-    scores = np.zeros((1, n_groups))
-    covariance = np.zeros((1, n_groups, n_groups))
+    scores = np.zeros((1, n_groups - 1))
+    covariance = np.zeros((1, n_groups - 1, n_groups - 1))
     for stratum in np.unique(strata_codes):
         members = strata_codes == stratum
-        u, v = _scores_and_covariance(_risk_sets(time[members], event[members]), codes[None, members], n_groups)
+        risk = _risk_sets(time[members], event[members])
+        u, v = _scores_and_covariance(risk, codes[members][risk.order][None, :], n_groups)
         scores += u
         covariance += v
     statistic = float(_chi_square(scores, covariance)[0])
@@ -119,4 +121,5 @@ def logrank_permutation_p(
     def statistic(rows: np.ndarray) -> np.ndarray:
         return _chi_square(*_scores_and_covariance(risk, rows, n_groups))
 
-    return permutation_p(statistic, codes, n_permutations, random_state, codes.size * n_groups, progress)
+    # shuffling the codes in time order is as uniform as shuffling them in patient order
+    return permutation_p(statistic, codes[risk.order], n_permutations, random_state, codes.size * n_groups, progress)
