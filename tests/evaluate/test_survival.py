@@ -40,13 +40,14 @@ def test_leukemia_cox_with_covariates_and_stratified_logrank(leukemia):
     grouping, data = leukemia
     data = data.copy()
     data.loc[["P00", "P30"], "logWBC"] = np.nan
+    data["sex"] = data["sex"].map({0: "female", 1: "male"})
     result = evaluate_survival(
         grouping, data, "t", "status", covariates=["logWBC", "sex"], strata="sex",
         events_per_term=5, n_permutations=0,
     )
     summary = result.summary
     assert summary["n_excluded"]["missing_covariates"] == 2
-    assert [row["term"] for row in summary["cox"]] == ["group treatment vs placebo", "logWBC", "sex"]
+    assert [row["term"] for row in summary["cox"]] == ["group treatment vs placebo", "logWBC", "sex male vs female"]
     assert summary["stratified"]["status"] == "tested" and summary["stratified"]["n_strata"] == 2
     assert summary["logrank"]["p_value_permutation"] is None
     assert set(result.tables) >= {"logrank", "pairwise", "medians", "cox", "ph_check", "rmst", "km"}
@@ -132,12 +133,15 @@ def test_bad_outcome_values_raise(leukemia, column, value, message):
         evaluate_survival(grouping, data, "t", "status", n_permutations=0)
 
 
-def test_missing_outcome_is_dropped_and_counted(leukemia):
+def test_missing_outcome_and_unlabelled_patients_are_dropped_and_counted(leukemia):
     grouping, data = leukemia
     data = data.copy()
     data.loc[["P01", "P02"], "t"] = np.nan
+    grouping = grouping.copy()
+    grouping["P10"] = None
     summary = evaluate_survival(grouping, data, "t", "status", n_permutations=0).summary
-    assert summary["n_excluded"]["missing_outcome"] == 2 and summary["n_patients"] == 40
+    assert summary["n_excluded"]["missing_outcome"] == 2 and summary["n_excluded"]["unlabelled"] == 1
+    assert summary["n_patients"] == 39
 
 
 def test_group_of_one_patient_and_missing_column_raise(leukemia):

@@ -66,8 +66,8 @@ def _marker_matrices(markers: pd.DataFrame) -> tuple[list, pd.Index, pd.DataFram
     groups = list(pd.unique(markers["group"]))
     wide = markers.pivot(index="feature", columns="group")
     universe = pd.Index(wide.index.astype(str))
-    take = lambda column: wide[column][groups].set_axis(universe)  # noqa: E731
-    return groups, universe, take("score"), take("difference"), take("p_adjusted")
+    score, difference, p_adjusted = (wide[column][groups].set_axis(universe) for column in ("score", "difference", "p_adjusted"))
+    return groups, universe, score, difference, p_adjusted
 
 
 def _over_representation(membership, names, groups, selected: np.ndarray) -> pd.DataFrame:

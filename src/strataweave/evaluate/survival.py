@@ -169,6 +169,7 @@ def evaluate_survival(
         "n_patients": len(labels),
         "n_events": int(event.sum()),
         "n_excluded": {
+            "unlabelled": int(len(grouping) - len(labelled)),
             "missing_outcome": outcome.n_missing,
             "without_outcome_row": int(len(labelled) - len(labels)),
             "missing_covariates": n_cox_dropped,
