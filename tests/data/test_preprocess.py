@@ -94,3 +94,9 @@ def test_bad_cell_in_memory_table_names_patient_and_feature():
     raw.iloc[2, 3] = -1.0
     with pytest.raises(InputError, match=r"rna: row 'P002', column 'GX003': found '-1.0'"):
         Preprocessor("counts").fit(raw, source="rna")
+
+
+def test_filter_that_leaves_no_feature_is_an_error():
+    raw = _counts() * 0 + 5.0  # every feature constant across patients
+    with pytest.raises(InputError, match=r"rna: step 'variance_filter': found no feature left"):
+        Preprocessor("log_expression").fit(raw, source="rna")

@@ -90,6 +90,9 @@ class Preprocessor:
             step["features_in"] = int(features.size)
             values, new_features = _APPLIERS[step["step"]](step, values, features)
             step["features_out"] = int(new_features.size)
+            if new_features.size == 0:
+                raise input_error(source, f"step {shown(step['step'])}", "no feature left",
+                                  "at least one feature; loosen the filter options")
             sources = np.tile(features, 2) if step["step"] == "split_signs" else new_features
             features = new_features
             self.steps_.append(step)
