@@ -41,8 +41,9 @@ def marker_table(labels: pd.Series, data: pd.DataFrame, groups: list, test: str 
     sizes = membership.sum(axis=1)[:, None]
     rank_sums, tie_term = group_rank_sums(values, codes, len(groups))
     rank_test = mann_whitney_from_rank_sums(rank_sums, sizes, n, tie_term[None, :])
-    group_mean = membership @ values / sizes
-    rest_mean = ((1 - membership) @ values) / (n - sizes)
+    group_sum = membership @ values
+    group_mean = group_sum / sizes
+    rest_mean = (values.sum(axis=0) - group_sum) / (n - sizes)
     if test == "welch":
         in_group = membership.astype(bool)
         welch = [stats.ttest_ind(values[m], values[~m], equal_var=False, axis=0) for m in in_group]
