@@ -6,6 +6,8 @@ import json
 import numpy as np
 import pandas as pd
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from strataweave import InputError
 from strataweave.data import Preprocessor
@@ -100,3 +102,31 @@ def test_filter_that_leaves_no_feature_is_an_error():
     raw = _counts() * 0 + 5.0  # every feature constant across patients
     with pytest.raises(InputError, match=r"rna: step 'variance_filter': found no feature left"):
         Preprocessor("log_expression").fit(raw, source="rna")
+
+
+@settings(max_examples=40, deadline=None)
+@given(
+    seed=st.integers(0, 2**16),
+    kind=st.sampled_from(["counts", "beta", "abundance", "log_expression"]),
+    quantile=st.booleans(),
+    impute=st.sampled_from(["knn", "median"]),
+    non_negative=st.sampled_from(["shift", "split", "none"]),
+    top=st.sampled_from([None, 3]),
+)
+def test_any_option_set_gives_complete_output_of_the_promised_sign(seed, kind, quantile, impute, non_negative, top):
+    rng = np.random.default_rng(seed)
+    values = rng.uniform(0.01, 0.99, size=(12, 6)) if kind == "beta" else rng.poisson(8, size=(12, 6)) * 1.0
+    values[rng.random(values.shape) < 0.1] = np.nan
+    values[:, 0] = 0.5  # keep every patient's row non-empty
+    raw = pd.DataFrame(values, index=[f"P{i}" for i in range(12)], columns=[f"F{j}" for j in range(6)])
+    pre = Preprocessor(kind, quantile_normalise=quantile, impute=impute, non_negative=non_negative,
+                       top_features=top, max_missing_fraction=1.0, min_variance=0.0)
+    try:
+        out = pre.fit_transform(raw)
+    except InputError as err:  # a filter may leave nothing: that must be the reported reason
+        assert "no feature left" in str(err)
+        return
+    assert out.notna().all().all()
+    if non_negative != "none":
+        assert (out.to_numpy() >= 0).all()
+    assert out.shape[1] == pre.steps_[-1]["features_out"]
