@@ -16,6 +16,13 @@ MAX_UNIT_DISTANCE = np.sqrt(2.0)
 FAR_PERCENTILE = 99.0
 
 
+def project_patients(model, views: list) -> np.ndarray:
+    """Patient factor rows with the loadings held fixed; missing cells and modalities masked out."""
+    arrays = [np.asarray(view, dtype=np.float64) for view in views]
+    masks = [np.isfinite(values) for values in arrays]
+    return model.transform([np.where(mask, values, 0.0) for values, mask in zip(arrays, masks)], mask=masks)
+
+
 def unit_rows(W: np.ndarray) -> np.ndarray:
     norms = np.linalg.norm(W, axis=1, keepdims=True)
     return np.divide(W, norms, out=np.zeros_like(W, dtype=np.float64), where=norms > 0)

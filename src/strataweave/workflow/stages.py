@@ -87,8 +87,8 @@ def build_stages(
               lambda inputs: run_sweep(flow, inputs["prepare"], inputs["graphs"], seeds["sweep"], feedback)),
         Stage("select", ("sweep",), {"use_count": flow.subtypes.use_count},
               lambda inputs: select_count(flow, inputs["sweep"])),
-        Stage("final_fit", ("sweep", "select"), {},
-              lambda inputs: final_fit(inputs["sweep"], inputs["select"])),
+        Stage("final_fit", ("prepare", "sweep", "select"), {},
+              lambda inputs: final_fit(inputs["prepare"], inputs["sweep"], inputs["select"])),
         Stage(
             "evaluate",
             ("load", "prepare", "final_fit"),

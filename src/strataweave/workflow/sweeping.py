@@ -23,7 +23,7 @@ from strataweave.subtypes.sweep import planned_tasks, sweep_subtype_counts
 from strataweave.workflow.config import Workflow
 from strataweave.workflow.preparing import aligned_views
 from strataweave.workflow.progress import Feedback
-from strataweave.workflow.projection import far_threshold, subtype_centres
+from strataweave.workflow.projection import far_threshold, project_patients, subtype_centres
 
 
 def factorization_options(flow: Workflow, prepared: dict) -> dict:
@@ -148,21 +148,26 @@ def chosen_sweep(sweep: dict, selected: dict) -> SweepResult:
     )
 
 
-def final_fit(sweep: dict, selected: dict) -> dict:
-    """Model, labels and scores at the chosen count, with the subtype centres for new patients."""
+def final_fit(prepared: dict, sweep: dict, selected: dict) -> dict:
+    """Model, labels and scores at the chosen count, with the subtype centres for new patients.
+
+    New patients get their patient factor by projection on the loadings (no graph), so the
+    centres and the far threshold are taken from the training patients projected the same
+    way: a training patient passed back through `assign` then meets the centres it helped make.
+    """
     count = selected["count"]
     model = sweep["models"][count]
     assignments = sweep["assignments"][count]
     labels = assignments["subtype"].to_numpy()
-    W = model["patient_factor"]
-    centres = subtype_centres(W, labels, count)
+    projected = project_patients(model_from_record(model), aligned_views(prepared))
+    centres = subtype_centres(projected, labels, count)
     return {
         "count": count,
         "names": subtype_names(count),
         "model": model,
         "assignments": assignments,
         "centres": centres,
-        "far_threshold": far_threshold(W, centres),
+        "far_threshold": far_threshold(projected, centres),
     }
 
 
