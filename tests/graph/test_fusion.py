@@ -142,6 +142,8 @@ def test_bad_input_is_one_clear_input_error(two_modalities, change, message):
         ({"metric": {"expr": "cosine"}}, "no entry for modality 'meth'"),
         ({"kernel": "laplace"}, "kernel: found 'laplace'"),
         ({"kernel_spread": 0}, "kernel_spread"),
+        ({"rule": "diffusion", "diffusion_iterations": 0}, "diffusion_iterations: found 0"),
+        ({"rule": "diffusion", "diffusion_neighbours": 2.5}, "diffusion_neighbours: found 2.5"),
     ],
 )
 def test_bad_settings_are_input_errors(two_modalities, options, message):

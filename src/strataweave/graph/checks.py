@@ -28,10 +28,15 @@ def metric_per_modality(metric: str | Mapping[str, str], names: list[str]) -> di
     return {name: chosen[name] for name in names}
 
 
+def check_count(what: str, value) -> None:
+    """InputError unless `value` is a whole number of at least 1."""
+    if isinstance(value, bool) or not isinstance(value, (int, np.integer)) or value < 1:
+        raise InputError(f"{what}: found {value!r}; expected a whole number of at least 1")
+
+
 def check_settings(n_neighbours, kernel: str, kernel_spread: float, bandwidth) -> None:
     """InputError for a neighbour count, kernel or width that cannot be used."""
-    if isinstance(n_neighbours, bool) or not isinstance(n_neighbours, (int, np.integer)) or n_neighbours < 1:
-        raise InputError(f"n_neighbours: found {n_neighbours!r}; expected a whole number of at least 1")
+    check_count("n_neighbours", n_neighbours)
     check_choice("kernel", kernel, KERNELS)
     if not kernel_spread > 0:
         raise InputError(f"kernel_spread: found {kernel_spread!r}; expected a number above 0")

@@ -7,6 +7,7 @@ k-nearest-neighbour lists; every modality's kernel is evaluated on all of them.
 
 from __future__ import annotations
 
+import itertools
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass
 
@@ -14,7 +15,7 @@ import numpy as np
 import pandas as pd
 
 from strataweave.errors import InputError
-from strataweave.graph.checks import check_overlap, check_settings, checked_matrix, metric_per_modality
+from strataweave.graph.checks import check_count, check_overlap, check_settings, checked_matrix, metric_per_modality
 from strataweave.graph.diffusion import diffuse
 from strataweave.graph.kernels import default_bandwidth, gaussian, local_scales, scaled_exponential
 from strataweave.graph.metrics import paired_distances, prepare_rows
@@ -72,13 +73,16 @@ def fuse_modalities(
     frames = dict(zip(names, data.values()))
     check_rule(rule, quorum, len(names))
     check_settings(n_neighbours, kernel, kernel_spread, bandwidth)
+    check_count("diffusion_iterations", diffusion_iterations)
+    if diffusion_neighbours is not None:
+        check_count("diffusion_neighbours", diffusion_neighbours)
     metrics = metric_per_modality(metric, names)
     matrices = {name: checked_matrix(name, frames[name], metrics[name], n_neighbours) for name in names}
     check_overlap({name: frames[name].index for name in names})
     patients = _union_in_order([frames[name].index for name in names])
     n = len(patients)
 
-    finished = 0
+    report = _pass_counter(progress)
     kernels: dict[str, _ModalityKernel] = {}
     modality_graphs = {}
     for name in names:
@@ -86,9 +90,7 @@ def fuse_modalities(
             matrices[name], metrics[name], patients.get_indexer(frames[name].index), n, n_neighbours,
             kernel, kernel_spread, bandwidth,
         )
-        finished += 1
-        if progress is not None:
-            progress(finished)
+        report()
 
     candidates = np.unique(np.concatenate([kernels[name].own_codes for name in names]))
     left, right = candidates // n, candidates % n
@@ -96,9 +98,7 @@ def fuse_modalities(
     for column, name in enumerate(names):
         values[:, column] = _kernel_on_pairs(matrices[name], metrics[name], kernels[name], left, right, n,
                                              kernel, kernel_spread)
-        finished += 1
-        if progress is not None:
-            progress(finished)
+        report()
 
     presence = pd.DataFrame({name: patients.isin(frames[name].index) for name in names}, index=patients)
     if rule == "diffusion":
@@ -125,9 +125,15 @@ def fuse_modalities(
     )
 
 
+def _pass_counter(progress: Callable[[int], None] | None) -> Callable[[], None]:
+    """A callable that reports 1, 2, 3, ... finished passes to `progress`, if there is one."""
+    passes = itertools.count(1)
+    return (lambda: progress(next(passes))) if progress is not None else (lambda: None)
+
+
 def _union_in_order(indexes: list[pd.Index]) -> pd.Index:
     """All patients, in order of first appearance across the modalities."""
-    combined = pd.Index(np.concatenate([index.astype(str).to_numpy(dtype=object) for index in indexes]))
+    combined = pd.Index(np.concatenate([index.to_numpy(dtype=object) for index in indexes]))
     return pd.Index(combined[~combined.duplicated()], name="patient_id")
 
 
