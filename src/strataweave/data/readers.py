@@ -3,18 +3,14 @@
 from __future__ import annotations
 
 from collections.abc import Iterable
+from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
 
-from strataweave.data.cells import MISSING_TOKENS, CellTable, TableText, quick_numbers, read_cells, read_table, split_cells
+from strataweave.data.cells import MISSING_TOKENS, TableText, quick_numbers, read_cells, read_table, split_cells
 from strataweave.data.positions import TablePositions, input_error, shown
-from strataweave.data.validation import (
-    check_identifiers,
-    check_kind,
-    check_values,
-    parse_numbers,
-)
+from strataweave.data.validation import check_identifiers, check_kind, check_values, parse_numbers
 
 ORIENTATIONS = ("features_in_rows", "samples_in_rows")
 
@@ -67,26 +63,15 @@ def read_matrix(
     whitespace. When `kind` is given, values are checked against its range (counts and
     abundances non-negative, beta values in [0, 1]).
     """
-    table = read_table(path)
-    quick = quick_numbers(table) if isinstance(table, TableText) else None
-    cells = None if quick is not None else (table if isinstance(table, CellTable) else split_cells(table))
-    if quick is not None:
-        header, labels, values = quick
-    else:
-        header, labels, values = cells.header, cells.body[:, 0], None
-    source = table.source if name is None else f"{table.source} (modality {shown(name)})"
+    parts = _matrix_parts(path)
+    source = parts.source if name is None else f"{parts.source} (modality {shown(name)})"
     if kind is not None:
         check_kind(kind, source)
-    if labels.size == 0 or header.size < 2:
-        raise input_error(source, "file", f"{labels.size} data rows and {header.size} columns",
-                          "a header, at least one data row and at least two columns")
-    unit = "line" if cells is None else cells.unit
-    positions = TablePositions(source, pd.Index(labels), pd.Index(header[1:]), table.first_line, unit)
+    positions = TablePositions(source, pd.Index(parts.labels), pd.Index(parts.header[1:]), parts.first_line, parts.unit)
     rows = check_identifiers(positions.row_labels, positions, "row")
     columns = check_identifiers(positions.column_labels, positions, "column")
     orientation = _orientation(orientation, rows, columns, known_ids, source)
-    if values is None:
-        values = parse_numbers(cells.body[:, 1:], positions)
+    values = parts.values if parts.values is not None else parse_numbers(parts.cells, positions)
     check_values(values, positions, kind)
     frame = pd.DataFrame(values, index=rows, columns=columns)
     if orientation == "features_in_rows":
@@ -94,6 +79,34 @@ def read_matrix(
     frame.index.name = "patient_id"
     frame.columns.name = "feature"
     return frame
+
+
+@dataclass(frozen=True)
+class _MatrixParts:
+    """A matrix file split into header, first-column labels and values (floats or text cells)."""
+
+    source: str
+    header: np.ndarray
+    labels: np.ndarray
+    values: np.ndarray | None
+    cells: np.ndarray | None
+    first_line: int
+    unit: str
+
+
+def _matrix_parts(path) -> _MatrixParts:
+    """The fast numeric parser where it applies, else text cells for the checks that name positions."""
+    table = read_table(path)
+    if isinstance(table, TableText):
+        quick = quick_numbers(table)
+        if quick is not None:
+            return _MatrixParts(table.source, *quick, None, table.first_line, "line")
+        table = split_cells(table)
+    if table.body.shape[0] == 0 or table.header.size < 2:
+        raise input_error(table.source, "file", f"{table.body.shape[0]} data rows and {table.header.size} columns",
+                          "a header, at least one data row and at least two columns")
+    return _MatrixParts(table.source, table.header, table.body[:, 0], None, table.body[:, 1:], table.first_line,
+                        table.unit)
 
 
 def _orientation(given, rows: pd.Index, columns: pd.Index, known_ids, source: str) -> str:
@@ -105,7 +118,7 @@ def _orientation(given, rows: pd.Index, columns: pd.Index, known_ids, source: st
     if known_ids is None:
         raise input_error(source, "key 'orientation'", "no orientation and no patient IDs to detect it",
                           "an orientation or the clinical patient IDs")
-    known = pd.Index([str(k).strip() for k in known_ids]).str.casefold()
+    known = pd.Index(list(known_ids), dtype=object).astype(str).str.strip().str.casefold()
     in_rows = int(rows.str.casefold().isin(known).sum())
     in_columns = int(columns.str.casefold().isin(known).sum())
     if in_rows == in_columns:
