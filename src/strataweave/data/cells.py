@@ -1,8 +1,9 @@
 """Read a table file (csv, tsv, gzip, Parquet) into text cells, keeping file positions.
 
-Nothing is interpreted here except the layout: leading '#' comment lines are skipped,
-the separator is taken from the file name (.csv, .tsv) or sniffed from the header, and
-every row must have as many fields as the header. Any failure to read is an InputError.
+Only the layout is interpreted here: leading '#' comment lines are skipped, the separator
+is taken from the file name (.csv, .tsv) or sniffed from the header, and every row must
+have as many fields as the header. Any failure to read is an InputError. For large
+numeric matrices `quick_numbers` parses the values in one pass of pandas' C parser.
 """
 
 from __future__ import annotations
