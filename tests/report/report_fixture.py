@@ -12,6 +12,11 @@ from strataweave.caution import CAUTION
 from strataweave.files import atomic_write_bytes, atomic_write_text
 
 LABELS = ["S1", "S2", "S3"]
+# User strings that try to break out of HTML, of matplotlib text ($...$) and of PDF text.
+HOSTILE_TITLE = '<script>alert("title")</script> Tom & Jerry\'s "cohort"'
+HOSTILE_MODALITIES = ("rna<b>bold</b>", 'meth"yl&amp;ation\'')
+HOSTILE_PREFIX = '<img src=x onerror=alert(1)>$F&"'
+HOSTILE_CLINICAL = "<script>stage</script>&<'\">"
 
 
 def _step_curve(rng: np.random.Generator, scale: float, n_steps: int) -> dict[str, np.ndarray]:

@@ -13,7 +13,14 @@ from pathlib import Path
 import matplotlib.image as mpimg
 import numpy as np
 import pytest
-from report_fixture import make_results, write_run_folder
+from report_fixture import (
+    HOSTILE_CLINICAL,
+    HOSTILE_MODALITIES,
+    HOSTILE_PREFIX,
+    HOSTILE_TITLE,
+    make_results,
+    write_run_folder,
+)
 
 from strataweave import InputError
 from strataweave.caution import CAUTION
@@ -21,26 +28,6 @@ from strataweave.report import render_run
 from strataweave.report.html_report import render_html
 from strataweave.report.palette import subtype_colour
 from strataweave.report.run_folder import load_run
-
-HOSTILE_TITLE = '<script>alert("title")</script> Tom & Jerry\'s "cohort"'
-HOSTILE_MODALITIES = ("rna<b>bold</b>", 'meth"yl&amp;ation\'')
-HOSTILE_PREFIX = '<img src=x onerror=alert(1)>$F&"'
-HOSTILE_CLINICAL = "<script>stage</script>&<'\">"
-
-
-@pytest.fixture(scope="module")
-def rendered(tmp_path_factory) -> Path:
-    results, arrays = make_results(modality_names=HOSTILE_MODALITIES, feature_prefix=HOSTILE_PREFIX,
-                                   title=HOSTILE_TITLE, clinical_name=HOSTILE_CLINICAL)
-    root = write_run_folder(tmp_path_factory.mktemp("hostile") / "run", results, arrays)
-    render_run(root)
-    return root
-
-
-@pytest.fixture(scope="module")
-def page(rendered) -> str:
-    return (rendered / "report.html").read_text(encoding="utf-8")
-
 
 def _results(root: Path) -> dict:
     return json.loads((root / "results.json").read_text(encoding="utf-8"))
@@ -85,34 +72,35 @@ def test_user_strings_are_escaped(page, raw):
     assert html.escape(raw) in page.replace("&#39;", "&#x27;").replace("&#34;", "&quot;")
 
 
-def test_no_patient_ids_unless_allowed(rendered, page):
+def _html_after_change(rendered: Path, tmp_path: Path, change) -> str:
+    """The HTML of a copy of the rendered run whose results.json was changed by `change(results)`."""
+    copy = shutil.copytree(rendered, tmp_path / "copy", ignore=shutil.ignore_patterns("figures"))
+    results = _results(copy)
+    change(results)
+    (copy / "results.json").write_text(json.dumps(results), encoding="utf-8")
+    return render_html(load_run(copy), [])
+
+
+def test_no_patient_ids_unless_allowed(rendered, page, tmp_path):
     assert "PX-0" not in page
-    results = _results(rendered)
-    results["report"]["show_patient_ids"] = True
-    (rendered / "results.json").write_text(json.dumps(results), encoding="utf-8")
-    try:
-        allowed = render_html(load_run(rendered), [])
-    finally:
-        results["report"]["show_patient_ids"] = False
-        (rendered / "results.json").write_text(json.dumps(results), encoding="utf-8")
-    core_ids = load_run(rendered).arrays["patient_ids"][load_run(rendered).arrays["core"]]
-    assert all(str(i) in allowed for i in core_ids)
+    allowed = _html_after_change(rendered, tmp_path, lambda r: r["report"].update(show_patient_ids=True))
+    arrays = load_run(rendered).arrays
+    core_ids = arrays["patient_ids"][arrays["core"]]
+    assert len(core_ids) > 0 and all(str(i) in allowed for i in core_ids)
+    assert not any(str(i) in allowed for i in arrays["patient_ids"][~arrays["core"]])
 
 
-def test_numbers_come_from_results(rendered, page):
+def test_numbers_come_from_results(rendered, page, tmp_path):
     results = _results(rendered)
     assert "permutation p = 0.001, 1000 permutations" in page
     assert "2.1</td><td>1.2</td><td>3.6</td><td>0.01" in page
     assert html.escape(results["selection"]["reason"]) in page
-    results["survival"]["logrank"]["p_value_permutation"] = 0.0371
-    results["survival"]["cox"][0]["hazard_ratio"] = 2.345
-    (rendered / "results.json").write_text(json.dumps(results), encoding="utf-8")
-    try:
-        changed = render_html(load_run(rendered), [])
-    finally:
-        results["survival"]["logrank"]["p_value_permutation"] = 0.001
-        results["survival"]["cox"][0]["hazard_ratio"] = 2.1
-        (rendered / "results.json").write_text(json.dumps(results), encoding="utf-8")
+
+    def change(r):
+        r["survival"]["logrank"]["p_value_permutation"] = 0.0371
+        r["survival"]["cox"][0]["hazard_ratio"] = 2.345
+
+    changed = _html_after_change(rendered, tmp_path, change)
     assert "permutation p = 0.0371" in changed and "<td>2.35</td>" in changed
 
 

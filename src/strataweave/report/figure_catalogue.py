@@ -45,12 +45,14 @@ def plan_figures(run: RunView) -> list[FigurePlan]:
                                 "Mean fraction of shared neighbours between the graphs of two modalities.",
                                 figures_cohort.draw_agreement, (7.5, 6.0)))
     if run.has("selection"):
+        rows, _ = figures_selection.grid_shape(len(run.results["selection"]["counts"]))
+        criteria_rows, _ = figures_selection.grid_shape(len(run.results["selection"]["criteria"]))
         plans += [
             FigurePlan("selection_criteria", "selection", "Each criterion against the subtype count.",
-                       figures_selection.draw_criteria, (12.0, 6.5)),
+                       figures_selection.draw_criteria, (12.0, 1.0 + 3.2 * criteria_rows)),
             FigurePlan("selection_consensus", "selection",
                        "Consensus matrices of the candidate counts, patients ordered by subtype at each count.",
-                       figures_selection.draw_consensus, (12.0, 6.5)),
+                       figures_selection.draw_consensus, (12.0, 1.2 + 3.0 * rows)),
         ]
         if run.results["selection"].get("flow"):
             plans.append(FigurePlan("selection_split_flow", "selection",

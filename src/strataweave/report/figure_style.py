@@ -70,5 +70,5 @@ def plain_log_ticks(axis: Axis, minor_leading_digits: str = "25") -> None:
     """Write a log axis's ticks as plain numbers (2, 50, 1000) instead of powers of ten."""
     axis.set_major_formatter(FuncFormatter(lambda value, _: f"{value:g}"))
     axis.set_minor_formatter(
-        FuncFormatter(lambda value, _: f"{value:g}" if f"{value:g}"[0] in minor_leading_digits else "")
+        FuncFormatter(lambda value, _: f"{value:g}" if f"{value:.0e}"[0] in minor_leading_digits else "")
     )

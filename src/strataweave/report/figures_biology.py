@@ -55,6 +55,7 @@ def draw_marker_heatmap(run: RunView, fig: Canvas, index: int) -> None:
         ax.set_yticks(range(len(features)), [shorten(plot_text(f), 28) for f in features],
                       fontsize=max(7, 12 - len(features) // 10))
         ax.tick_params(right=False, labelright=True)
+        left.tick_params(left=False, labelleft=False)
     ax.set_xlabel(f"patients measured in this modality, ordered by subtype (n = {len(patient_code)})")
     fig.colorbar(image, ax=ax, location="bottom", shrink=0.4, pad=0.02,
                  label="value on the normalised scale, centred and scaled per feature (SD units)")

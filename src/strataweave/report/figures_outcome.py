@@ -36,8 +36,8 @@ def logrank_sentence(survival: dict) -> str:
 
 
 def time_label(run: RunView) -> str:
-    unit = run.results["survival"].get("time_unit") or "time units of the clinical table"
-    return f"time ({plot_text(unit)})"
+    unit = run.results["survival"].get("time_unit")
+    return f"time ({plot_text(unit)})" if unit else "time (in the unit of the clinical table's time column)"
 
 
 def draw_kaplan_meier(run: RunView, fig: Canvas) -> None:
@@ -88,7 +88,7 @@ def draw_forest(run: RunView, fig: Canvas) -> None:
         ax.annotate(text, (1.02, position), xycoords=("axes fraction", "data"), va="center", fontsize=12)
     ax.axvline(1.0, color=NEUTRAL, linestyle="--", linewidth=1)
     ax.set_xscale("log")
-    plain_log_ticks(ax.xaxis, "2359")
+    plain_log_ticks(ax.xaxis, "25")
     if values:
         low, high = min(values + [1.0]), max(values + [1.0])
         ax.set_xlim(low / 1.3, high * 1.3)

@@ -26,6 +26,7 @@ CRITERION_UNITS = {
     "eigengap": "eigengap of the fused graph",
     "reconstruction_error": "reconstruction error (relative)",
     "smallest_size": "smallest subtype (patients)",
+    "smallest_subtype": "smallest subtype (patients)",
     "stability": "stability (mean ARI)",
 }
 
@@ -37,7 +38,7 @@ def group_colour(run: RunView, count: int, code: int) -> str:
     return NEUTRAL_SHADES[1] if code % 2 else NEUTRAL_SHADES[2]
 
 
-def _grid(n: int, max_columns: int = 4) -> tuple[int, int]:
+def grid_shape(n: int, max_columns: int = 4) -> tuple[int, int]:
     columns = min(n, max_columns)
     return -(-n // columns), columns
 
@@ -48,7 +49,7 @@ def draw_criteria(run: RunView, fig: Canvas) -> None:
     counts = selection["counts"]
     directions = selection.get("higher_is_better", {})
     criteria = list(selection["criteria"].items())
-    rows, columns = _grid(len(criteria))
+    rows, columns = grid_shape(len(criteria))
     axes = np.atleast_1d(fig.subplots(rows, columns, sharex=True, squeeze=False)).ravel()
     for ax, (name, values) in zip(axes, criteria):
         y = np.array([np.nan if v is None else v for v in values], dtype=float)
@@ -84,7 +85,7 @@ def _consensus_image(run: RunView, count: int) -> np.ndarray:
 def draw_consensus(run: RunView, fig: Canvas) -> None:
     """Consensus matrix of each count tried, patients ordered by subtype at that count."""
     counts = run.results["selection"]["counts"]
-    rows, columns = _grid(len(counts))
+    rows, columns = grid_shape(len(counts))
     axes = np.atleast_1d(fig.subplots(rows, columns, squeeze=False)).ravel()
     for ax, count in zip(axes, counts):
         ax.imshow(_consensus_image(run, count), interpolation="nearest")
@@ -96,8 +97,8 @@ def draw_consensus(run: RunView, fig: Canvas) -> None:
     for ax in axes[len(counts):]:
         ax.set_visible(False)
     colourbar = fig.colorbar(ScalarMappable(cmap=SEQUENTIAL), ax=axes[: len(counts)].tolist(), shrink=0.8)
-    colourbar.set_label("consensus (fraction of resamples together, 0-1)")
-    fig.suptitle("Consensus matrices (patients ordered by subtype; strips mark the subtypes)")
+    colourbar.set_label("consensus (0-1)")
+    fig.suptitle("Consensus matrices: how often two patients fell in one subtype (ordered by subtype)")
 
 
 def _node_sizes(flow: list[dict], counts: list[int]) -> dict[int, np.ndarray]:

@@ -5,6 +5,7 @@ from __future__ import annotations
 import numpy as np
 from matplotlib.figure import Figure, SubFigure
 from matplotlib.lines import Line2D
+from matplotlib.ticker import MaxNLocator
 
 from strataweave.report.formatting import plot_text, shorten
 from strataweave.report.palette import NEUTRAL, NEUTRAL_SHADES, subtype_colour
@@ -59,13 +60,13 @@ def draw_confidence(run: RunView, fig: Canvas) -> None:
     codes, confidence = run.arrays["subtype_code"], run.arrays["confidence"]
     count = len(run.labels)
     axes = np.atleast_1d(fig.subplots(count, 1, sharex=True, squeeze=False)).ravel()
-    bins = np.linspace(0, 1, 21)
+    bins = np.linspace(min(0.0, float(confidence.min())), max(float(confidence.max()), 1e-6), 21)
     for code, (ax, label) in enumerate(zip(axes, run.labels)):
-        ax.hist(np.clip(confidence[codes == code], 0, 1), bins=bins, color=subtype_colour(code),
-                edgecolor="white")
+        ax.hist(confidence[codes == code], bins=bins, color=subtype_colour(code), edgecolor="white")
         ax.set_ylabel(shorten(plot_text(label), 12), rotation=0, ha="right", va="center")
         ax.tick_params(labelsize=10)
-    axes[-1].set_xlabel("assignment confidence (0-1; patients per bin on each row's axis)")
+        ax.yaxis.set_major_locator(MaxNLocator(nbins=3, integer=True))
+    axes[-1].set_xlabel("assignment confidence (higher = clearer; bars count patients)")
     fig.suptitle("Confidence of the subtype assignment")
 
 
