@@ -28,7 +28,7 @@ def _concat_t_times(blocks: list[ViewBlock], left: np.ndarray) -> list[np.ndarra
 
 
 def truncated_svd(blocks: list[ViewBlock], n_patients: int, rank: int, rng: np.random.Generator,
-                  n_oversamples: int = 10, n_power_iter: int = 7):
+                  n_oversamples: int = 10, n_power_iter: int = 4):
     """Top `rank` singular triplets (U, S, Vt) of the concatenated, weighted data."""
     width = min(rank + n_oversamples, n_patients, sum(b.data.shape[1] for b in blocks))
     sketch = [rng.standard_normal((b.data.shape[1], width)).astype(b.data.dtype) for b in blocks]

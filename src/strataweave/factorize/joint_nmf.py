@@ -15,6 +15,7 @@ from strataweave.factorize.smoothness import GraphSmoothness
 from strataweave.factorize.updates import (
     data_times_loadings,
     iterate,
+    single_threaded_blas,
     update_loadings,
     update_patient_factor,
 )
@@ -124,7 +125,8 @@ class JointNMF(BaseEstimator):
         for restart, seed in enumerate(child_seeds(self.random_state, int(self.n_restarts))):
             rng = np.random.default_rng(seed)
             warm = (W_init, H_init) if restart == 0 else (None, None)
-            W, loadings = self._start(prepared, smoothness, rng, *warm, self.init if restart == 0 else "random")
+            with single_threaded_blas():
+                W, loadings = self._start(prepared, smoothness, rng, *warm, self.init if restart == 0 else "random")
             result = iterate(blocks, W, loadings, smoothness, max_iter=int(self.max_iter), tol=self.tol,
                              n_updates=int(self.inner_updates))
             if best is None or result.objective[-1] < best.objective[-1]:
@@ -144,15 +146,8 @@ class JointNMF(BaseEstimator):
         self.view_names_ = [b.name for b in blocks]
         self.feature_names_ = prepared.feature_names
         self.effective_graph_weight_ = smoothness.strength if smoothness is not None else 0.0
-        self.reconstruction_error_ = np.array([self._relative_error(b, best.W, H) for b, H in zip(blocks, best.loadings)])
+        self.reconstruction_error_ = np.sqrt([e / b.squared_norm for b, e in zip(blocks, best.squared_errors)])
         return self
-
-    @staticmethod
-    def _relative_error(block, W, H) -> float:
-        """||M o (X - W H)||_F / ||M o X||_F for one modality."""
-        W_rows = block.restrict(W)
-        error = block.squared_error(W_rows, H, W_rows.T @ block.data, W_rows.T @ W_rows)
-        return float(np.sqrt(error / block.squared_norm))
 
     def fit_transform(self, views, graph=None, mask=None, *, W_init=None, H_init=None) -> np.ndarray:
         """Fit and return the patient factor W (patients x n_components)."""
@@ -168,7 +163,8 @@ class JointNMF(BaseEstimator):
         )
         if len(prepared.blocks) != len(self.components_):
             raise InputError(f"views: found {len(prepared.blocks)}; expected {len(self.components_)} like the training data")
-        return self._project_patients(prepared.blocks, self.components_, prepared.n_patients)
+        with single_threaded_blas():
+            return self._project_patients(prepared.blocks, self.components_, prepared.n_patients)
 
     def to_state(self) -> tuple[dict, dict[str, np.ndarray]]:
         """(JSON-safe dict, arrays for .npz) from which `from_state` rebuilds the fitted model."""

@@ -18,8 +18,10 @@ their change falls below `INNER_STOP` times the first change, or `n_updates` tim
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import cache
 
 import numpy as np
+from threadpoolctl import ThreadpoolController
 
 from strataweave.factorize.smoothness import GraphSmoothness
 from strataweave.factorize.views import ViewBlock
@@ -33,7 +35,20 @@ class FitResult:
     W: np.ndarray
     loadings: list[np.ndarray]
     objective: list[float]
+    squared_errors: list[float]
     converged: bool
+
+
+@cache
+def _blas_controller() -> ThreadpoolController:
+    return ThreadpoolController()
+
+
+def single_threaded_blas():
+    """Context for everything but the passes over X: small products gain nothing from BLAS
+    threads and lose much to thread hand-offs when the cores are busy (7x measured on a
+    loaded 2-core machine); the passes keep the caller's thread setting."""
+    return _blas_controller().limit(limits=1, user_api="blas")
 
 
 def _safe_ratio(numerator: np.ndarray, denominator: np.ndarray) -> np.ndarray:
@@ -121,26 +136,29 @@ def iterate(blocks, W, loadings, smoothness: GraphSmoothness | None, *, max_iter
             n_updates: int) -> FitResult:
     """Outer iterations from (W, loadings) until the objective settles or `max_iter`."""
     W, loadings = W.copy(), [H.copy() for H in loadings]
-    normalise(W, loadings, blocks)
     masked = any(b.entry_mask is not None for b in blocks)
-    objective, quiet = [], 0
+    with single_threaded_blas():
+        normalise(W, loadings, blocks)
+    objective, quiet, errors = [], 0, []
     for _ in range(max_iter):
         P = data_times_loadings(blocks, loadings, W.shape)
-        W = update_patient_factor(W, P, blocks, loadings, smoothness, 1 if masked else n_updates)
-        smooth = smoothness.per_component(W) if smoothness is not None else None
-        ridge = smoothness.strength * smooth if smoothness is not None else None
-        data_term = 0.0
-        for v, block in enumerate(blocks):
-            W_rows = block.restrict(W)
-            WtX, WtW = W_rows.T @ block.data, W_rows.T @ W_rows
-            steps = 1 if block.entry_mask is not None else n_updates
-            loadings[v] = update_loadings(loadings[v], block, W_rows, WtX, WtW, ridge, steps)
-            data_term += block.weight * block.squared_error(W_rows, loadings[v], WtX, WtW)
-        graph_term = float(ridge @ loading_norms(blocks, loadings)) if ridge is not None else 0.0
-        objective.append(data_term + graph_term)
-        normalise(W, loadings, blocks)
+        with single_threaded_blas():
+            W = update_patient_factor(W, P, blocks, loadings, smoothness, 1 if masked else n_updates)
+        factor_times_data = [block.restrict(W).T @ block.data for block in blocks]
+        with single_threaded_blas():
+            ridge = smoothness.strength * smoothness.per_component(W) if smoothness is not None else None
+            errors = []
+            for v, (block, WtX) in enumerate(zip(blocks, factor_times_data)):
+                W_rows = block.restrict(W)
+                WtW = W_rows.T @ W_rows
+                steps = 1 if block.entry_mask is not None else n_updates
+                loadings[v] = update_loadings(loadings[v], block, W_rows, WtX, WtW, ridge, steps)
+                errors.append(block.squared_error(W_rows, loadings[v], WtX, WtW))
+            graph_term = float(ridge @ loading_norms(blocks, loadings)) if ridge is not None else 0.0
+            objective.append(sum(b.weight * e for b, e in zip(blocks, errors)) + graph_term)
+            normalise(W, loadings, blocks)
         if len(objective) > 1:
             quiet = quiet + 1 if _relative_decrease(objective[-2], objective[-1]) < tol else 0
             if quiet >= PATIENCE:
-                return FitResult(W, loadings, objective, True)
-    return FitResult(W, loadings, objective, False)
+                return FitResult(W, loadings, objective, errors, True)
+    return FitResult(W, loadings, objective, errors, False)

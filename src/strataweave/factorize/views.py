@@ -16,10 +16,7 @@ import pandas as pd
 
 from strataweave.errors import InputError
 
-NONNEGATIVE_HINT = (
-    "make the modality non-negative first (the Preprocessor in strataweave.data "
-    "offers a shift or clip step for this)"
-)
+NONNEGATIVE_HINT = "make it non-negative first, e.g. Preprocessor(..., non_negative='shift' or 'split')"
 
 
 @dataclass(frozen=True)
