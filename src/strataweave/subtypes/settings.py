@@ -18,7 +18,9 @@ class SweepSettings:
     ambiguous. min_size: smallest subtype size a recommended count may have. pac_tolerance:
     PAC differences below it count as ties (see recommend.RULE). core_threshold: mean
     consensus with the own subtype above which a patient is core. user_count: a count fixed
-    by the user instead of the rule. resample_restarts: NMF restarts per resample.
+    by the user instead of the rule. resample_restarts: NMF restarts per resample (the lowest
+objective wins): a resample stuck in a poor local optimum would otherwise count as
+disagreement and blur the consensus at the true count.
     warm_start: start each resample from the full-data factors of its count (faster, but the
     resamples then share a starting point, which can make the consensus look crisper).
     """
@@ -31,7 +33,7 @@ class SweepSettings:
     min_size: int = 10
     core_threshold: float = 0.8
     user_count: int | None = None
-    resample_restarts: int = 1
+    resample_restarts: int = 3
     warm_start: bool = False
 
     def __post_init__(self) -> None:
