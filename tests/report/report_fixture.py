@@ -17,6 +17,7 @@ HOSTILE_TITLE = '<script>alert("title")</script> Tom & Jerry\'s "cohort"'
 HOSTILE_MODALITIES = ("rna<b>bold</b>", 'meth"yl&amp;ation\'')
 HOSTILE_PREFIX = '<img src=x onerror=alert(1)>$F&"'
 HOSTILE_CLINICAL = "<script>stage</script>&<'\">"
+HOSTILE_STRINGS = (HOSTILE_TITLE, *HOSTILE_MODALITIES, HOSTILE_CLINICAL, HOSTILE_PREFIX)
 
 
 def _step_curve(rng: np.random.Generator, scale: float, n_steps: int) -> dict[str, np.ndarray]:

@@ -13,14 +13,7 @@ from pathlib import Path
 import matplotlib.image as mpimg
 import numpy as np
 import pytest
-from report_fixture import (
-    HOSTILE_CLINICAL,
-    HOSTILE_MODALITIES,
-    HOSTILE_PREFIX,
-    HOSTILE_TITLE,
-    make_results,
-    write_run_folder,
-)
+from report_fixture import HOSTILE_STRINGS, make_results, write_run_folder
 
 from strataweave import InputError
 from strataweave.caution import CAUTION
@@ -64,7 +57,7 @@ def test_html_is_self_contained(page):
     assert "default-src 'none'" in page
 
 
-@pytest.mark.parametrize("raw", [HOSTILE_TITLE, *HOSTILE_MODALITIES, HOSTILE_CLINICAL, HOSTILE_PREFIX])
+@pytest.mark.parametrize("raw", HOSTILE_STRINGS)
 def test_user_strings_are_escaped(page, raw):
     # html.escape (standard library) is the reference for what an escaped string looks like;
     # jinja2 writes quotes as &#34; and &#39;, html.escape as &quot; and &#x27; (equivalent entities).
@@ -134,7 +127,7 @@ def test_caution_on_every_slide(rendered):
     text = subprocess.run(["pdftotext", str(rendered / "slides.pdf"), "-"], capture_output=True,
                           text=True, check=True).stdout
     pages = [p for p in text.split("\f") if p.strip()]
-    assert len(pages) == 11
+    assert len(pages) == 12
     for number, content in enumerate(pages, start=1):
         assert " ".join(CAUTION.split()) in " ".join(content.split()), f"caution missing on slide {number}"
         assert "PX-0" not in content

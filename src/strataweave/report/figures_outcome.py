@@ -44,7 +44,7 @@ def draw_kaplan_meier(run: RunView, fig: Canvas) -> None:
     """Kaplan-Meier curves with 95% bands and a numbers-at-risk table aligned under the time axis."""
     groups = run.survival_groups
     styles = group_styles(run)
-    ax, table = fig.subplots(2, 1, sharex=True, height_ratios=[4, 0.45 * len(groups) + 0.6])
+    ax, table = fig.subplots(2, 1, sharex=True, height_ratios=[4, 0.28 * len(groups) + 0.5])
     for g, (name, (colour, style)) in enumerate(zip(groups, styles)):
         time = run.arrays[f"km_{g}_time"]
         ax.step(time, run.arrays[f"km_{g}_survival"], where="post", color=colour, linestyle=style, linewidth=2.4,

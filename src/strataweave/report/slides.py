@@ -21,6 +21,7 @@ TITLE_SIZE = 28
 TEXT_SIZE = 20
 FOOTER_SIZE = 10.5
 MAX_TABLE_ROWS = 10
+BULLET_WIDTH = 90
 
 Draw = Callable[[RunView, Figure | SubFigure], None]
 
@@ -57,8 +58,9 @@ class SlideDeck:
 
     def text_page(self, title: str, lines: list[str], size: float = TEXT_SIZE) -> None:
         fig, body = self.page(title)
-        body.text(0.04, 0.95, "\n".join(plot_text(line) for line in lines), fontsize=size, va="top",
-                  linespacing=1.6)
+        wrapped = [textwrap.fill(line, BULLET_WIDTH, subsequent_indent="   ") for line in lines]
+        body.text(0.04, 0.95, "\n".join(plot_text(line) for line in wrapped), fontsize=size, va="top",
+                  linespacing=1.5)
         self.save(fig)
 
     def table_page(self, title: str, table: Table, subtitle: str = "") -> None:
@@ -71,6 +73,7 @@ class SlideDeck:
                              cellLoc="left")
             drawn.auto_set_font_size(False)
             drawn.set_fontsize(15)
+            drawn.auto_set_column_width(list(range(len(table.header))))
             drawn.scale(1.0, 2.0)
         hidden = len(table.rows) - len(rows)
         if hidden > 0:
@@ -93,11 +96,11 @@ def _summary_lines(run: RunView) -> list[str]:
     sizes = ", ".join(f"{shorten(label, 16)}: {size}" for label, size in zip(run.labels, results["subtypes"]["sizes"]))
     lines = [f"\u2022 {results['subtype_count']} subtypes ({sizes})"]
     if run.has("selection"):
-        lines.append("\u2022 " + textwrap.shorten(results["selection"]["reason"], 110))
+        lines.append("\u2022 " + results["selection"]["reason"])
     if run.has("survival"):
         lines.append("\u2022 " + figures_outcome.logrank_sentence(results["survival"]))
         if results["survival"].get("ph_warning"):
-            lines.append("\u2022 " + textwrap.shorten(results["survival"]["ph_warning"], 110))
+            lines.append("\u2022 " + results["survival"]["ph_warning"])
     if run.has("clinical"):
         strongest = min(results["clinical"], key=lambda r: (r["p_adjusted"] is None, r["p_adjusted"] or 0))
         lines.append(f"\u2022 strongest clinical association: {shorten(strongest['variable'], 30)} "
@@ -131,8 +134,8 @@ def render_slides(run: RunView) -> bytes:
         deck.figure_page("The subtypes", subtype_draws)
         if run.has("survival"):
             survival = results["survival"]
-            deck.figure_page("Survival", [figures_outcome.draw_kaplan_meier, figures_outcome.draw_forest],
-                             survival.get("ph_warning") or survival.get("not_tested") or "")
+            deck.figure_page("Survival", [figures_outcome.draw_kaplan_meier], survival.get("not_tested") or "")
+            deck.figure_page("Survival: Cox model", [figures_outcome.draw_forest], survival.get("ph_warning") or "")
         if run.has("clinical"):
             deck.table_page("Clinical associations", rows_table(
                 results["clinical"], ["variable", "test", "effect_size", "effect_size_name", "p_adjusted"]))
