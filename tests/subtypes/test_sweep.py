@@ -20,7 +20,7 @@ from strataweave.subtypes.settings import SweepSettings
 from strataweave.subtypes.sweep import planned_tasks, sweep_subtype_counts
 
 COUNTS = [2, 3, 4]
-SETTINGS = SweepSettings(n_resamples=4, min_size=5)
+SETTINGS = SweepSettings(n_resamples=4, min_size=5, resample_restarts=1)
 FAST_NMF = {"max_iter": 60, "init": "random"}
 
 
