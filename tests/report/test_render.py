@@ -136,19 +136,25 @@ def test_caution_on_every_slide(rendered):
     assert width / height == pytest.approx(16 / 9, rel=1e-3)
 
 
-def test_minimal_run_leaves_out_absent_sections(tmp_path):
+def test_given_groups_without_omics_leave_out_absent_sections(tmp_path):
+    """The shape of an `evaluate` run: the user's groups, no modalities, no survival columns."""
     results, arrays = make_results(survival=False, markers=False, n=30)
     for key in ("graph", "selection", "baselines", "clinical", "parameters"):
         results.pop(key)
-    arrays = {k: v for k, v in arrays.items() if k in ("subtype_code", "confidence", "core", "presence")}
+    results["cohort"]["modalities"] = []
+    results["subtypes"]["given"] = True
+    arrays = {k: v for k, v in arrays.items() if k in ("subtype_code", "confidence", "core")}
+    arrays["presence"] = np.zeros((30, 0), dtype=bool)
     root = write_run_folder(tmp_path / "run", results, arrays, manifest={})
-    written = render_run(root)
+    finished = []
+    written = render_run(root, progress=finished.append)
+    assert finished == [1, 2, 3]
     page = written["html"].read_text(encoding="utf-8")
     for absent in ("outcomes", "how-many", "markers", "enrichment", "clinical", "graphs"):
         assert f'<section id="{absent}">' not in page
+    assert "<h2>The groups</h2>" in page and "core patients" not in page
     assert "The manifest records no command line." in page
-    assert sorted(p.stem for p in (root / "figures").glob("*.png")) == [
-        "cohort_filters", "cohort_presence", "subtype_confidence", "subtype_sizes"]
+    assert sorted(p.stem for p in (root / "figures").glob("*.png")) == ["subtype_sizes"]
     assert written["pdf"].read_bytes().startswith(b"%PDF")
 
 

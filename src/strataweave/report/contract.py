@@ -162,6 +162,10 @@ RESULTS: dict[str, Entry] = {
             "core_threshold": Entry(
                 "number", "mean consensus with the own subtype above which a patient is core", required=False
             ),
+            "given": Entry(
+                "flag", "true when the grouping was given by the user (`strataweave evaluate`): the report "
+                "then speaks of groups and leaves out confidence and core patients", required=False
+            ),
         },
     ),
     "baselines": _rows(

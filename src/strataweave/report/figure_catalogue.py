@@ -34,12 +34,14 @@ class DrawnFigure:
 
 def plan_figures(run: RunView) -> list[FigurePlan]:
     """The figures this run calls for, in report order; absent sections give no figures."""
-    plans = [
-        FigurePlan("cohort_presence", "cohort", "Patients (columns, ordered by subtype) measured in each modality.",
-                   figures_cohort.draw_presence, (11.0, 3.0 + 0.45 * len(run.results["cohort"]["modalities"]))),
-        FigurePlan("cohort_filters", "cohort", "Features kept after each filter step, per modality.",
-                   figures_cohort.draw_filters, (10.0, 5.0)),
-    ]
+    plans = []
+    if run.has_modalities:
+        plans += [
+            FigurePlan("cohort_presence", "cohort", "Patients (columns, ordered by subtype) measured in each modality.",
+                       figures_cohort.draw_presence, (11.0, 3.0 + 0.45 * len(run.results["cohort"]["modalities"]))),
+            FigurePlan("cohort_filters", "cohort", "Features kept after each filter step, per modality.",
+                       figures_cohort.draw_filters, (10.0, 5.0)),
+        ]
     if run.has("graph"):
         plans.append(FigurePlan("graph_agreement", "graph",
                                 "Mean fraction of shared neighbours between the graphs of two modalities.",
@@ -58,16 +60,17 @@ def plan_figures(run: RunView) -> list[FigurePlan]:
             plans.append(FigurePlan("selection_split_flow", "selection",
                                     "How patients move between subtypes from one count to the next.",
                                     figures_selection.draw_split_flow, (11.0, 6.0)))
-    plans += [
-        FigurePlan("subtype_sizes", "subtypes", "Patients per subtype; the solid part are core patients.",
-                   figures_subtypes.draw_sizes, (9.0, 1.6 + 0.7 * len(run.labels))),
-        FigurePlan("subtype_confidence", "subtypes", "Distribution of assignment confidence within each subtype.",
-                   figures_subtypes.draw_confidence, (9.0, 1.8 + 1.1 * len(run.labels))),
-    ]
+    sizes_caption = ("Patients per group." if run.groups_given
+                     else "Patients per subtype; the solid part are core patients.")
+    plans.append(FigurePlan("subtype_sizes", "subtypes", sizes_caption, figures_subtypes.draw_sizes,
+                            (9.0, 1.6 + 0.7 * len(run.labels))))
     if "embedding" in run.arrays:
-        plans.insert(len(plans) - 1, FigurePlan(
-            "subtype_embedding", "subtypes", "Two-dimensional spectral embedding of the fused graph.",
-            figures_subtypes.draw_embedding, (10.0, 7.0)))
+        plans.append(FigurePlan("subtype_embedding", "subtypes", "Two-dimensional spectral embedding of the fused graph.",
+                                figures_subtypes.draw_embedding, (10.0, 7.0)))
+    if not run.groups_given:
+        plans.append(FigurePlan("subtype_confidence", "subtypes",
+                                "Distribution of assignment confidence within each subtype.",
+                                figures_subtypes.draw_confidence, (9.0, 1.8 + 1.1 * len(run.labels))))
     if run.has("baselines"):
         plans.append(FigurePlan("subtype_baselines", "subtypes", "Agreement of the baseline methods with our subtypes.",
                                 figures_subtypes.draw_baselines, (10.0, 1.8 + 0.8 * len(run.results["baselines"]))))

@@ -15,24 +15,28 @@ Canvas = Figure | SubFigure
 
 
 def draw_sizes(run: RunView, fig: Canvas) -> None:
-    """Patients per subtype as horizontal bars, the core patients as the solid part."""
+    """Patients per subtype as horizontal bars, the core patients as the solid part (not for given groups)."""
     sizes = run.results["subtypes"]["sizes"]
-    codes, core = run.arrays["subtype_code"], run.arrays["core"]
-    core_counts = np.bincount(codes[core], minlength=len(sizes))
     ax = fig.subplots()
     positions = np.arange(len(sizes))
     colours = [subtype_colour(code) for code in positions]
-    ax.barh(positions, sizes, color=colours, alpha=0.35, edgecolor=colours, linewidth=1.5, label="all patients")
-    ax.barh(positions, core_counts, color=colours, label="core patients")
+    if run.groups_given:
+        ax.barh(positions, sizes, color=colours)
+        fig.suptitle("Group sizes")
+    else:
+        codes, core = run.arrays["subtype_code"], run.arrays["core"]
+        core_counts = np.bincount(codes[core], minlength=len(sizes))
+        ax.barh(positions, sizes, color=colours, alpha=0.35, edgecolor=colours, linewidth=1.5)
+        ax.barh(positions, core_counts, color=colours)
+        ax.legend(handles=[Line2D([], [], color=NEUTRAL, linewidth=8, label="core patients"),
+                           Line2D([], [], color=NEUTRAL, alpha=0.35, linewidth=8, label="all patients")],
+                  frameon=False, loc="lower right")
+        fig.suptitle("Subtype sizes (solid: core patients)")
     for position, size in zip(positions, sizes):
         ax.text(size, position, f" {size}", va="center")
     ax.set_yticks(positions, [shorten(plot_text(label), 20) for label in run.labels])
     ax.invert_yaxis()
     ax.set_xlabel("patients (count)")
-    ax.legend(handles=[Line2D([], [], color=NEUTRAL, linewidth=8, label="core patients"),
-                       Line2D([], [], color=NEUTRAL, alpha=0.35, linewidth=8, label="all patients")],
-              frameon=False, loc="lower right")
-    fig.suptitle("Subtype sizes (solid: core patients)")
 
 
 def draw_embedding(run: RunView, fig: Canvas) -> None:

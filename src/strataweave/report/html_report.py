@@ -42,10 +42,11 @@ def _subtype_rows(run: RunView) -> list[dict[str, Any]]:
     rows = []
     for code, (label, size) in enumerate(zip(run.labels, run.results["subtypes"]["sizes"])):
         member = codes == code
-        row = {"subtype": label, "patients": size, "share": f"{100 * size / total:.1f}%",
-               "core patients": int(np.count_nonzero(member & core)),
-               "confidence range": (f"{confidence[member].min():.2f}-{confidence[member].max():.2f}"
-                                    if member.any() else "\u2013")}
+        row = {run.group_word: label, "patients": size, "share": f"{100 * size / total:.1f}%"}
+        if not run.groups_given:
+            row["core patients"] = int(np.count_nonzero(member & core))
+            row["confidence range"] = (f"{confidence[member].min():.2f}-{confidence[member].max():.2f}"
+                                       if member.any() else "\u2013")
         if run.show_patient_ids:
             row["core patient IDs"] = ", ".join(str(i) for i in run.arrays["patient_ids"][member & core])
         rows.append(row)
@@ -79,6 +80,7 @@ def report_context(run: RunView, figures: list[DrawnFigure]) -> dict[str, Any]:
         "title": run.title,
         "figures": _figures_by_section(figures),
         "subtype_count": results["subtype_count"],
+        "group_word": run.group_word,
         "cohort": {"patients": results["cohort"]["patients"],
                    "modalities": modalities_table(results["cohort"]["modalities"])},
         "graph": results.get("graph"),

@@ -22,6 +22,7 @@ def render_run(run_dir: str | Path, formats: Iterable[str] = FORMATS,
     """Draw the figures and write the requested formats; return {"figures"|"html"|"pdf": path}.
 
     Reads only results.json, stages/figure_data.npz and manifest.json; computes no statistics.
+    `progress`, when given, is called with the number of finished pieces (figures, then each format).
     """
     formats = tuple(formats)
     unknown = [f for f in formats if f not in FORMATS]
@@ -30,10 +31,16 @@ def render_run(run_dir: str | Path, formats: Iterable[str] = FORMATS,
     run = load_run(run_dir)
     figures = draw_figures(run, progress=progress)
     written = {"figures": run.run_dir / "figures"}
+    done = len(figures)
     if "html" in formats:
         written["html"] = run.run_dir / REPORT_FILE
         atomic_write_text(written["html"], render_html(run, figures))
+        done += 1
+        if progress is not None:
+            progress(done)
     if "pdf" in formats:
         written["pdf"] = run.run_dir / SLIDES_FILE
         atomic_write_bytes(written["pdf"], render_slides(run))
+        if progress is not None:
+            progress(done + 1)
     return written

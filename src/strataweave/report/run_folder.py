@@ -45,6 +45,19 @@ class RunView:
         return bool(self.results.get("report", {}).get("show_patient_ids", False)) and "patient_ids" in self.arrays
 
     @property
+    def groups_given(self) -> bool:
+        """True when the grouping came from the user (evaluate), not from the run's own subtypes."""
+        return bool(self.results["subtypes"].get("given", False))
+
+    @property
+    def group_word(self) -> str:
+        return "group" if self.groups_given else "subtype"
+
+    @property
+    def has_modalities(self) -> bool:
+        return bool(self.results["cohort"]["modalities"])
+
+    @property
     def survival_groups(self) -> list[str]:
         return survival_groups(self.results)
 

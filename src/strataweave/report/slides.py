@@ -85,7 +85,7 @@ def _title_lines(run: RunView) -> list[str]:
     results = run.results
     cohort = results["cohort"]
     lines = [f"{cohort['patients']} patients, {len(cohort['modalities'])} omics layers, "
-             f"{results['subtype_count']} subtypes"]
+             f"{results['subtype_count']} {run.group_word}s"]
     if "created" in run.manifest:
         lines.append(f"run started {run.manifest['created']}")
     return lines
@@ -94,7 +94,7 @@ def _title_lines(run: RunView) -> list[str]:
 def _summary_lines(run: RunView) -> list[str]:
     results = run.results
     sizes = ", ".join(f"{shorten(label, 16)}: {size}" for label, size in zip(run.labels, results["subtypes"]["sizes"]))
-    lines = [f"\u2022 {results['subtype_count']} subtypes ({sizes})"]
+    lines = [f"\u2022 {results['subtype_count']} {run.group_word}s ({sizes})"]
     if run.has("selection"):
         lines.append("\u2022 " + results["selection"]["reason"])
     if run.has("survival"):
@@ -122,7 +122,8 @@ def render_slides(run: RunView) -> bytes:
                                                     "CreationDate": None}) as pdf:
         deck = SlideDeck(run, pdf)
         deck.text_page(run.title, _title_lines(run), size=24)
-        deck.figure_page("Cohort", [figures_cohort.draw_presence, figures_cohort.draw_filters])
+        if run.has_modalities:
+            deck.figure_page("Cohort", [figures_cohort.draw_presence, figures_cohort.draw_filters])
         if run.has("selection"):
             selection = results["selection"]
             subtitle = f"Recommended: {selection['recommended']}. {selection['reason']}"
@@ -131,7 +132,7 @@ def render_slides(run: RunView) -> bytes:
         subtype_draws: list[Draw] = [figures_subtypes.draw_sizes]
         if "embedding" in run.arrays:
             subtype_draws.insert(0, figures_subtypes.draw_embedding)
-        deck.figure_page("The subtypes", subtype_draws)
+        deck.figure_page(f"The {run.group_word}s", subtype_draws)
         if run.has("survival"):
             survival = results["survival"]
             deck.figure_page("Survival", [figures_outcome.draw_kaplan_meier], survival.get("not_tested") or "")
