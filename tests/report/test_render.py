@@ -18,6 +18,8 @@ from report_fixture import HOSTILE_STRINGS, make_results, write_run_folder
 from strataweave import InputError
 from strataweave.caution import CAUTION
 from strataweave.report import render_run
+from strataweave.report.figure_style import figure_bytes, new_figure, report_style
+from strataweave.report.figures_outcome import draw_forest, draw_kaplan_meier
 from strataweave.report.html_report import render_html
 from strataweave.report.palette import subtype_colour
 from strataweave.report.run_folder import load_run
@@ -173,3 +175,22 @@ def test_bad_run_folders_raise_one_line_input_errors(tmp_path):
     (root / "results.json").write_text("{not json", encoding="utf-8")
     with pytest.raises(InputError, match="line 1: not valid JSON"):
         render_run(root)
+
+
+def test_untested_survival_is_said_in_words(tmp_path):
+    results, arrays = make_results(n=20)
+    results["survival"]["not_tested"] = "not tested: too few events"
+    results["survival"]["logrank"].update(statistic=None, df=None, p_value=None, p_value_permutation=None)
+    results["survival"]["cox"] = [{"term": "group S2 vs S1", "hazard_ratio": None, "ci_lower": None,
+                                   "ci_upper": None, "p_value": None}]
+    run = load_run(write_run_folder(tmp_path / "run", results, arrays))
+    page = render_html(run, [])
+    assert "log-rank: not tested: too few events" in page
+    with report_style():
+        figures = {}
+        for draw in (draw_forest, draw_kaplan_meier):
+            figures[draw] = new_figure()
+            draw(run, figures[draw])
+            assert figure_bytes(figures[draw], "png").startswith(b"\x89PNG")
+    forest_texts = [t.get_text() for ax in figures[draw_forest].axes for t in ax.texts]
+    assert forest_texts == ["not estimable"]
