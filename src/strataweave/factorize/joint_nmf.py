@@ -50,7 +50,7 @@ class JointNMF(BaseEstimator):
     enough, the other is projected); it replaces `init` for the first restart.
     """
 
-    def __init__(self, n_components: int = 4, *, graph_weight: float = 0.1, max_iter: int = 300,
+    def __init__(self, n_components: int = 4, *, graph_weight: float = 1.0, max_iter: int = 300,
                  tol: float = 1e-5, init: str = "nndsvda", n_restarts: int = 1, random_state=None,
                  dtype: str = "float64", modality_weights=None, inner_updates: int = 10,
                  transform_max_iter: int = 2000):
