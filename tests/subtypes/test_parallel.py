@@ -60,3 +60,14 @@ def test_unreachable_scheduler_is_an_input_error_within_the_timeout(shared):
 def test_bad_settings_are_input_errors(kwargs, message):
     with pytest.raises(InputError, match=message):
         ParallelSettings(**kwargs)
+
+
+def test_scheduler_without_workers_is_an_input_error_within_the_timeout(shared):
+    from distributed import LocalCluster
+
+    with LocalCluster(n_workers=0, processes=False, dashboard_address=None) as empty:
+        settings = ParallelSettings("dask", scheduler=empty.scheduler_address, connect_timeout=1.0)
+        started = time.monotonic()
+        with pytest.raises(InputError, match="no worker attached"):
+            run_tasks(seeded_projection_labels, shared, [1], settings)
+        assert time.monotonic() - started < 10

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 from scipy.cluster.hierarchy import cophenet, linkage
+from scipy.spatial.distance import squareform
 
 from strataweave.errors import InputError
 from strataweave.subtypes.compare import adjusted_rand
@@ -25,8 +26,8 @@ def check_window(window: tuple[float, float]) -> tuple[float, float]:
 
 
 def _upper_pairs(consensus: np.ndarray) -> np.ndarray:
-    rows, cols = np.triu_indices(consensus.shape[0], k=1)
-    return consensus[rows, cols]
+    """Condensed vector of the patient pairs (upper triangle, as scipy's squareform)."""
+    return squareform(consensus, checks=False)
 
 
 def pac(consensus: np.ndarray, window: tuple[float, float] = (0.1, 0.9)) -> float:

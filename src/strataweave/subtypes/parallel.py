@@ -81,6 +81,14 @@ def _dask_client(settings: ParallelSettings) -> Iterator[Any]:
                 f"scheduler: found no Dask scheduler answering at {settings.scheduler!r} within "
                 f"{settings.connect_timeout:g} s ({error}); expected the address of a running scheduler"
             ) from None
+        try:
+            client.wait_for_workers(1, timeout=settings.connect_timeout)
+        except (OSError, TimeoutError):
+            client.close()
+            raise InputError(
+                f"scheduler: found no worker attached to the Dask scheduler at {settings.scheduler!r} within "
+                f"{settings.connect_timeout:g} s; expected at least one worker"
+            ) from None
     try:
         yield client
     finally:
