@@ -14,7 +14,7 @@ from strataweave.report.tables import criteria_table, rows_table
 def test_methods_paragraph_uses_the_parameters_given():
     results, _ = make_results()
     text, cited = methods_paragraph(results)
-    assert "graph weight 0.5" in text and ", 3 restarts" in text
+    assert "(graph weight 0.5, 3 restarts)" in text
     assert "20 resamples of 0.8 of the patients" in text and "window 0.1-0.9" in text
     assert "adjusted for age_years" in text and "seed 20261201" in text
     assert "up to 36 months" in text

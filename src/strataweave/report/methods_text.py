@@ -76,25 +76,30 @@ def methods_paragraph(results: dict[str, Any]) -> tuple[str, list[str]]:
         sentences.append(
             f"Per modality, a patient-similarity graph keeping {graph['neighbours']} neighbours per patient was built"
             f"{kernel}{metric}{cite('wang2014')}, and the graphs were fused by the {graph['rule']} rule; "
-            f"{graph['fallback_patients']} patients left without an edge were linked to their nearest neighbours "
-            "in the average graph.")
+            + (f"{graph['fallback_patients']} patients left without an edge were linked to their nearest "
+               "neighbours in the average graph." if graph["fallback_patients"] else
+               "no patient was left without an edge."))
     if results.get("selection"):
         selection = results["selection"]
-        weight = _phrase(" (graph weight {w})", w=_get(p, "factorization.graph_weight"))
-        restarts = _phrase(", {r} restarts", r=_get(p, "factorization.restarts"))
+        settings = [_phrase("graph weight {w}", w=_get(p, "factorization.graph_weight")),
+                    _phrase("{r} restarts", r=_get(p, "factorization.restarts"))]
+        settings_text = ", ".join(x for x in settings if x)
+        weight = f" ({settings_text})" if settings_text else ""
         resamples = _phrase("{n} resamples of {f} of the patients", n=_get(p, "resampling.resamples"),
                             f=_get(p, "resampling.fraction")) or "resamples of the patients"
         window = _get(p, "subtypes.pac_window")
         pac = _phrase(" with window {lo}-{hi}", lo=window[0], hi=window[1]) if isinstance(window, list) else ""
         sentences.append(
             "A joint non-negative matrix factorisation shared one patient factor across modalities"
-            f"{cite('lee1999')} and was regularised by the fused graph{cite('cai2011')}{weight}{restarts}. "
+            f"{cite('lee1999')} and was regularised by the fused graph{cite('cai2011')}{weight}. "
             f"Subtype counts {format_value(selection['counts'])} were compared by consensus over {resamples}"
             f"{cite('monti2003')}, using the proportion of ambiguous clustering{pac}{cite('senbabaoglu2014')}, "
             f"the cophenetic correlation{cite('brunet2004')}, the eigengap of the fused graph{cite('luxburg2007')} "
             "and further criteria listed in the report.")
         chosen = "fixed by the user" if selection.get("overridden") else "recommended"
-        sentences.append(f"{results['subtype_count']} subtypes were used ({chosen}; rule: {selection['reason']})")
+        reason = selection["reason"].rstrip()
+        sentences.append(f"{results['subtype_count']} subtypes were used ({chosen}). Reason: {reason}"
+                         + ("" if reason.endswith(".") else "."))
     if results.get("baselines"):
         sentences.append("Agreement with baseline methods was measured by the adjusted Rand index"
                          f"{cite('hubert1985')} and normalised mutual information.")
@@ -114,8 +119,11 @@ def methods_paragraph(results: dict[str, Any]) -> tuple[str, list[str]]:
         sentences.append("Clinical variables were compared between subtypes by chi-square or Fisher's exact tests "
                          f"and the Kruskal-Wallis test{cite('kruskal1952')}.")
     if results.get("markers"):
-        sentences.append("Markers of each subtype against the rest were ranked by the Mann-Whitney U test"
-                         f"{cite('mann1947')} per feature.")
+        if _get(p, "evaluation.marker_test") == "welch":
+            test = "Welch's t-test"
+        else:
+            test = f"the Mann-Whitney U test{cite('mann1947')}"
+        sentences.append(f"Markers of each subtype against the rest were ranked by {test} per feature.")
     if results.get("enrichment"):
         sentences.append("Over-representation of each subtype's markers in gene sets was tested with the "
                          "hypergeometric distribution, the universe being the measured features.")
