@@ -150,6 +150,8 @@ def test_group_of_one_patient_and_missing_column_raise(leukemia):
     lonely.iloc[0] = "alone"
     with pytest.raises(InputError, match="group 'alone' has 1 patient"):
         evaluate_survival(lonely, data, "t", "status", n_permutations=0)
+    with pytest.raises(InputError, match="all belong to group 'placebo', expected at least 2 groups"):
+        evaluate_survival(grouping, data[data["Rx"] == 1], "t", "status", n_permutations=0)
     with pytest.raises(InputError, match="no column 'months'"):
         evaluate_survival(grouping, data, "months", "status")
     with pytest.raises(InputError, match="no column 'centre'"):

@@ -41,6 +41,11 @@ def align(grouping: pd.Series, table: pd.DataFrame, table_name: str) -> tuple[pd
             f"(first grouping ID {grouping.index[0]!r}, first table ID {table.index[0] if len(table) else None!r})"
         )
     labels = grouping.loc[shared]
+    if labels.nunique() < 2:
+        raise InputError(
+            f"{table_name}: the patients it shares with the grouping all belong to group {labels.iloc[0]!r}, "
+            "expected at least 2 groups"
+        )
     require_two_per_group(labels, table_name)
     return labels, table.loc[shared]
 
