@@ -63,6 +63,16 @@ def test_quantile_normalised_patients_share_one_sorted_distribution():
     np.testing.assert_allclose(sorted_rows, np.broadcast_to(sorted_rows[0], sorted_rows.shape), rtol=1e-12)
 
 
+def test_quantile_reference_with_missing_cells_resamples_each_patient():
+    # A patient with a missing cell is resampled onto the full quantile grid by linear
+    # interpolation: observed (1, 3, 5) at quantiles 0, 1/3, 2/3, 1 gives 1, 2.333, 3.667, 5.
+    values = np.array([[1.0, np.nan, 3.0, 5.0], [2.0, 4.0, 6.0, 8.0]])
+    expected = (np.array([1, 1 + 4 / 3, 1 + 8 / 3, 5]) + np.array([2, 4, 6, 8])) / 2
+    np.testing.assert_allclose(quantile_reference(values), expected, rtol=1e-14)
+    out = quantile_apply(values, quantile_reference(values))
+    assert np.isnan(out[0, 1]) and out[0, 0] == expected[0] and out[0, 3] == expected[3]
+
+
 def test_knn_imputation_equals_scikit_learn():
     # Reference library: scikit-learn's KNNImputer on the same log-expression matrix.
     rng = np.random.default_rng(5)

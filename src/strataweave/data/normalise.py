@@ -66,9 +66,11 @@ def quantile_reference(values: np.ndarray) -> np.ndarray:
     observed = (~np.isnan(values)).sum(axis=1)
     rows = observed > 0
     n_points = values.shape[1]
+    ordered = np.sort(values[rows], axis=1)
+    if (observed[rows] == n_points).all():
+        return ordered.mean(axis=0)
     grid = np.linspace(0.0, 1.0, n_points)[None, :]
-    sampled = _sample_sorted(np.sort(values[rows], axis=1), observed[rows], grid)
-    return sampled.mean(axis=0)
+    return _sample_sorted(ordered, observed[rows], grid).mean(axis=0)
 
 
 def quantile_apply(values: np.ndarray, reference: np.ndarray) -> np.ndarray:
