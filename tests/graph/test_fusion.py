@@ -160,3 +160,10 @@ def test_zero_profile_under_cosine_is_an_input_error(two_modalities):
 def test_empty_input_is_an_input_error():
     with pytest.raises(InputError, match="non-empty dict"):
         fuse_modalities({})
+
+
+def test_missing_value_in_a_nullable_column_is_an_input_error(two_modalities):
+    two_modalities["meth"] = two_modalities["meth"].astype("Float64")
+    two_modalities["meth"].iloc[4, 1] = pd.NA
+    with pytest.raises(InputError, match=r"'meth', patient 'p14', column 'g1'.*impute"):
+        fuse_modalities(two_modalities, n_neighbours=5)

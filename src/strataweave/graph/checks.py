@@ -74,7 +74,7 @@ def _as_float(name: str, frame: pd.DataFrame) -> np.ndarray:
     for column, dtype in frame.dtypes.items():
         if not (pd.api.types.is_numeric_dtype(dtype) and not pd.api.types.is_bool_dtype(dtype)):
             raise InputError(f"modality {name!r}, column {column!r}: found type {dtype}; expected numbers")
-    return frame.to_numpy(dtype=np.float64)
+    return frame.to_numpy(dtype=np.float64, na_value=np.nan)
 
 
 def _check_rows_for_metric(name: str, patients: pd.Index, matrix: np.ndarray, metric: str) -> None:

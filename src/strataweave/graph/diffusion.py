@@ -11,8 +11,6 @@ the modalities that both patients of a pair have.
 
 from __future__ import annotations
 
-from collections.abc import Callable
-
 import numpy as np
 import scipy.sparse as sp
 
@@ -23,8 +21,7 @@ from strataweave.graph.pairs import row_ranks
 DENSE_LIMIT = 1600
 
 
-def diffuse(left, right, values, presence: np.ndarray, n_neighbours: int, iterations: int,
-            progress: Callable[[int], None] | None = None) -> np.ndarray:
+def diffuse(left, right, values, presence: np.ndarray, n_neighbours: int, iterations: int) -> np.ndarray:
     """Fused value for each pair (left[p], right[p]) after `iterations` diffusion steps.
 
     `values` is pairs x modalities (NaN where absent); `presence` is patients x modalities.
@@ -40,16 +37,14 @@ def diffuse(left, right, values, presence: np.ndarray, n_neighbours: int, iterat
     status = [_transition(rows, cols, diagonal, kernel[:, v], n) for v in range(kernel.shape[1])]
     local = [_local_matrix(rows, cols, diagonal, kernel[:, v], n, n_neighbours) for v in range(kernel.shape[1])]
     weight = shared.astype(np.float64)
-    for step in range(iterations):
+    others_count = weight.sum(axis=1, keepdims=True) - weight
+    for _ in range(iterations):
         total = sum(status)
-        others_count = weight.sum(axis=1, keepdims=True) - weight
         mixed = [
             np.where(others_count[:, v] > 0, (total - status[v]) / np.maximum(others_count[:, v], 1), status[v])
             for v in range(len(status))
         ]
         status = [_masked_product(local[v], mixed[v], rows, cols, n) for v in range(len(status))]
-        if progress is not None:
-            progress(step + 1)
     count = weight.sum(axis=1)
     fused = np.divide(sum(status), count, out=np.zeros(len(rows)), where=count > 0)
     fused[diagonal] = 0.0
