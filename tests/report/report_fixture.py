@@ -203,6 +203,8 @@ def write_run_folder(root: Path, results: dict, arrays: dict, manifest: dict | N
         "platform": "Linux-x86_64",
         "packages": {"numpy": "1.26.4", "scipy": "1.11.4"},
         "seed": 20261201,
+        "workflow": {"path": "workflows/fictional biobank.toml", "sha256": "12" * 32,
+                     "text": '[report]\ntitle = "<script>x</script> & co"\n'},
         "inputs": {"clinical.tsv": "ab" * 32},
         "stages": {"load": {"seconds": 0.4, "key": "cd" * 8}, "sweep": {"seconds": 12.5, "key": "ef" * 8}},
     }

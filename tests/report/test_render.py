@@ -24,6 +24,11 @@ from strataweave.report.html_report import render_html
 from strataweave.report.palette import subtype_colour
 from strataweave.report.run_folder import load_run
 
+def _as_html_escape_writes(page: str) -> str:
+    """jinja2 writes quotes as &#34; and &#39;, html.escape as &quot; and &#x27; (equivalent entities)."""
+    return page.replace("&#39;", "&#x27;").replace("&#34;", "&quot;")
+
+
 def _results(root: Path) -> dict:
     return json.loads((root / "results.json").read_text(encoding="utf-8"))
 
@@ -61,10 +66,9 @@ def test_html_is_self_contained(page):
 
 @pytest.mark.parametrize("raw", HOSTILE_STRINGS)
 def test_user_strings_are_escaped(page, raw):
-    # html.escape (standard library) is the reference for what an escaped string looks like;
-    # jinja2 writes quotes as &#34; and &#39;, html.escape as &quot; and &#x27; (equivalent entities).
+    # html.escape (standard library) is the reference for what an escaped string looks like.
     assert raw not in page
-    assert html.escape(raw) in page.replace("&#39;", "&#x27;").replace("&#34;", "&quot;")
+    assert html.escape(raw) in _as_html_escape_writes(page)
 
 
 def _html_after_change(rendered: Path, tmp_path: Path, change) -> str:
@@ -106,6 +110,7 @@ def test_sections_methods_and_rerun_command(rendered, page):
     manifest = json.loads((rendered / "manifest.json").read_text())
     command = re.search(r'<pre id="rerun-command">(.*?)</pre>', page, flags=re.S).group(1)
     assert shlex.split(html.unescape(command)) == manifest["command"]
+    assert html.escape(manifest["workflow"]["text"]) in _as_html_escape_writes(page)
     assert "graph weight 0.5" in page and "20 resamples of 0.8 of the patients" in page
     assert "Senbabaoglu Y" in page and "Proportional hazards:" in page
 

@@ -293,6 +293,7 @@ MANIFEST: dict[str, Entry] = {
     "platform": Entry("text", "platform string", required=False),
     "packages": Entry("mapping", "package name -> version", required=False),
     "seed": Entry("integer", "the workflow seed", required=False),
+    "workflow": Entry("mapping", "the workflow file as run: {path, sha256, text}", required=False),
     "inputs": Entry("mapping", "input path -> sha256", required=False),
     "stages": Entry("mapping", "stage name -> {seconds, key}", required=False),
 }

@@ -61,8 +61,10 @@ def _reproducibility(run: RunView) -> dict[str, Any]:
     stages = [{"stage": name, "seconds": info.get("seconds") if isinstance(info, dict) else None,
                "cache key": info.get("key") if isinstance(info, dict) else None}
               for name, info in (manifest.get("stages") or {}).items()]
+    workflow = manifest.get("workflow") or {}
     return {
         "command": shlex.join(command) if command else None,
+        "workflow": {key: workflow.get(key) for key in ("path", "sha256", "text")} if workflow else None,
         "facts": facts,
         "packages": rows_table([{"package": k, "version": v} for k, v in (manifest.get("packages") or {}).items()]),
         "inputs": rows_table([{"input": k, "sha256": v} for k, v in (manifest.get("inputs") or {}).items()]),
