@@ -116,3 +116,17 @@ def test_label_patients_rejects_bad_requests():
         label_patients(W, 2, method="argmax")
     with pytest.raises(InputError, match="method: found 'nearest'"):
         label_patients(W, 2, method="nearest")
+
+
+def test_patient_graph_must_match_the_view_patients(small):
+    from strataweave.graph import PatientGraph
+
+    views, graph = small
+    ids = [f"P{i:02d}" for i in range(30)]
+    frames = [pd.DataFrame(v, index=ids) for v in views]
+    shuffled = PatientGraph(patients=pd.Index(ids[::-1]), affinity=graph, rule="intersection")
+    with pytest.raises(InputError, match="patients differ"):
+        _fit(frames, shuffled)
+    aligned = PatientGraph(patients=pd.Index(ids), affinity=graph, rule="intersection")
+    np.testing.assert_array_equal(_fit(frames, aligned, random_state=0).patient_factor_,
+                                  _fit(frames, graph, random_state=0).patient_factor_)

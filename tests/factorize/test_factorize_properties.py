@@ -80,8 +80,8 @@ def test_transform_of_training_patients_gives_back_w():
 
 def test_warm_start_from_a_fit_converges_at_once(cohort):
     views, _, affinity = cohort
-    first = JointNMF(3, graph_weight=0.5, max_iter=500, tol=1e-7, random_state=0).fit(views, affinity)
-    again = JointNMF(3, graph_weight=0.5, max_iter=500, tol=1e-7).fit(
+    first = JointNMF(3, graph_weight=0.5, max_iter=300, tol=1e-6, random_state=0).fit(views, affinity)
+    again = JointNMF(3, graph_weight=0.5, max_iter=300, tol=1e-6).fit(
         views, affinity, W_init=first.patient_factor_, H_init=first.components_)
     assert again.n_iter_ <= 10
     assert again.objective_[-1] <= first.objective_[-1] * (1 + 1e-6)

@@ -11,7 +11,7 @@ from sklearn.exceptions import ConvergenceWarning
 
 from strataweave.errors import InputError
 from strataweave.factorize.init import initial_factors
-from strataweave.factorize.smoothness import GraphSmoothness
+from strataweave.factorize.smoothness import GraphSmoothness, graph_affinity
 from strataweave.factorize.updates import (
     data_times_loadings,
     iterate,
@@ -112,7 +112,8 @@ class JointNMF(BaseEstimator):
         """Fit to `views` (list or dict of patients x features; all-NaN rows = missing modality).
 
         `mask`: optional list, one per view, of None, a bool vector (patient has the view) or
-        a bool matrix (entry observed). `graph`: sparse affinity aligned with the view rows.
+        a bool matrix (entry observed). `graph`: sparse affinity aligned with the view rows,
+        or a PatientGraph (its patients must match the views' index).
         """
         self._check_params()
         prepared = prepare_views(views, mask=mask, weights=self.modality_weights,
@@ -120,7 +121,8 @@ class JointNMF(BaseEstimator):
         blocks, n = prepared.blocks, prepared.n_patients
         smoothness = None
         if graph is not None and self.graph_weight != 0:
-            smoothness = GraphSmoothness(graph, self.graph_weight, n, DTYPES[self.dtype])
+            affinity = graph_affinity(graph, prepared.patients)
+            smoothness = GraphSmoothness(affinity, self.graph_weight, n, DTYPES[self.dtype])
         best = None
         for restart, seed in enumerate(child_seeds(self.random_state, int(self.n_restarts))):
             rng = np.random.default_rng(seed)

@@ -10,10 +10,20 @@ large cohorts, sparse and dense graphs, and whatever the scale of the data.
 from __future__ import annotations
 
 import numpy as np
+import pandas as pd
 import scipy.sparse as sp
 
 from strataweave.errors import InputError
 from strataweave.graph.laplacian import degrees
+
+
+def graph_affinity(graph, patients: pd.Index | None):
+    """The affinity matrix of `graph`: a sparse/dense matrix, or an object with `affinity` and
+    `patients` (a PatientGraph), whose patients must then be those of the views, in order."""
+    graph_patients = getattr(graph, "patients", None)
+    if graph_patients is not None and patients is not None and not pd.Index(graph_patients).equals(patients):
+        raise InputError("graph: its patients differ from the views' patient index; expected the same patients in the same order")
+    return getattr(graph, "affinity", graph)
 
 
 def _checked_affinity(graph, n_patients: int, dtype) -> sp.csr_matrix:
