@@ -9,7 +9,6 @@ from typing import Callable
 
 from strataweave.report import figures_biology, figures_cohort, figures_outcome, figures_selection, figures_subtypes
 from strataweave.report.figure_style import FIGURE_SIZE, new_figure, report_style, save_figure
-from strataweave.report.formatting import plot_text
 from strataweave.report.run_folder import RunView
 
 FIGURES_DIR = "figures"
@@ -83,7 +82,7 @@ def plan_figures(run: RunView) -> list[FigurePlan]:
         ]
     for index, block in enumerate(run.results.get("markers") or []):
         plans.append(FigurePlan(f"markers_{index + 1}", "markers",
-                                f"Top markers per subtype in {plot_text(block['modality'])}.",
+                                f"Top markers per subtype in {block['modality']}.",
                                 partial(figures_biology.draw_marker_heatmap, index=index), (12.0, 7.0)))
     if run.has("enrichment") and figures_biology.enrichment_rows(run):
         plans.append(FigurePlan("enrichment_dots", "enrichment", "Top over-represented gene sets per subtype.",

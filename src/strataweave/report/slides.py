@@ -46,25 +46,22 @@ class SlideDeck:
                   color=NEUTRAL)
         return fig, body
 
-    def save(self, fig: Figure) -> None:
-        self.pdf.savefig(fig)
-
     def figure_page(self, title: str, draws: list[Draw], subtitle: str = "") -> None:
         fig, body = self.page(title, subtitle)
         panels = body.subfigures(1, len(draws)) if len(draws) > 1 else [body]
         for draw, panel in zip(draws, panels):
             draw(self.run, panel)
-        self.save(fig)
+        self.pdf.savefig(fig)
 
     def text_page(self, title: str, lines: list[str], size: float = TEXT_SIZE) -> None:
         fig, body = self.page(title)
         wrapped = [textwrap.fill(line, BULLET_WIDTH, subsequent_indent="   ") for line in lines]
         body.text(0.04, 0.95, "\n".join(plot_text(line) for line in wrapped), fontsize=size, va="top",
                   linespacing=1.5)
-        self.save(fig)
+        self.pdf.savefig(fig)
 
-    def table_page(self, title: str, table: Table, subtitle: str = "") -> None:
-        fig, body = self.page(title, subtitle)
+    def table_page(self, title: str, table: Table) -> None:
+        fig, body = self.page(title)
         ax = body.subplots()
         ax.axis("off")
         rows = [[plot_text(shorten(cell, 34)) for cell in row] for row in table.rows[:MAX_TABLE_ROWS]]
@@ -78,7 +75,7 @@ class SlideDeck:
         hidden = len(table.rows) - len(rows)
         if hidden > 0:
             ax.text(0.0, 0.0, f"{hidden} more rows in report.html", fontsize=14, transform=ax.transAxes)
-        self.save(fig)
+        self.pdf.savefig(fig)
 
 
 def _title_lines(run: RunView) -> list[str]:
