@@ -93,10 +93,14 @@ class SyntheticCohort:
         frame = table.T if self.orientations[name] == FEATURES_IN_ROWS else table
         return frame.astype(np.float64)
 
+    def _patients_in(self, name: str) -> pd.Index:
+        table = self.tables[name]
+        return table.columns if self.orientations[name] == FEATURES_IN_ROWS else table.index
+
     def presence(self) -> pd.DataFrame:
         """Boolean patients x layers table: which patient has which layer."""
         return pd.DataFrame(
-            {name: self.clinical.index.isin(self.patients_by_features(name).index) for name in self.tables},
+            {name: self.clinical.index.isin(self._patients_in(name)) for name in self.tables},
             index=self.clinical.index,
         )
 
@@ -111,7 +115,7 @@ def make_synthetic_cohort(
 
     patients = _patient_ids(n_patients)
     subtype = rng_groups.permutation(np.repeat(np.arange(n_subtypes), _subtype_sizes(n_patients, n_subtypes)))
-    strength = np.clip(rng_groups.normal(1.0, 0.3, n_patients), 0.25, 1.7)
+    strength = np.clip(rng_groups.normal(1.0, 0.25, n_patients), 0.4, 1.6)
     purity = rng_groups.beta(7.0, 3.0, n_patients)
     purity = (purity - purity.mean()) / purity.std()
     missing_layer = _missing_layers(rng_missing, n_patients, len(RECIPES))
@@ -119,17 +123,17 @@ def make_synthetic_cohort(
     tables, marker_tables = {}, []
     for layer_index, (recipe, layer_seed) in enumerate(zip(RECIPES, seeds[4:], strict=True)):
         rng = np.random.default_rng(layer_seed)
-        values, markers = _simulate_layer(rng, recipe, subtype, n_subtypes, strength, purity)
+        values, names, layer_markers = _simulate_layer(rng, recipe, subtype, n_subtypes, strength, purity)
         present = np.flatnonzero(missing_layer != layer_index)
         order = rng.permutation(present)
-        frame = pd.DataFrame(values[order], index=pd.Index(patients[order], name="patient_id"), columns=markers.index)
+        frame = pd.DataFrame(values[order], index=pd.Index(patients[order], name="patient_id"), columns=names)
         frame = frame.iloc[:, rng.permutation(frame.shape[1])]
         tables[recipe.name] = frame.T.rename_axis(index="feature_id") if recipe.orientation == FEATURES_IN_ROWS else frame
-        marker_tables.append(markers.dropna(subset=["subtypes"]).assign(layer=recipe.name))
+        marker_tables.append(layer_markers.assign(layer=recipe.name))
 
-    markers = pd.concat(marker_tables).rename_axis("feature_id").reset_index()
+    markers = pd.concat(marker_tables, ignore_index=True)
     labels = pd.Series(_subtype_names(n_subtypes)[subtype], index=pd.Index(patients, name="patient_id"), name="planted_subtype")
-    gene_sets, enriched = _gene_sets(rng_sets, tables["rna"].index, markers, n_subtypes)
+    gene_sets, enriched = _gene_sets(rng_sets, tables["rna"].index, markers)
     return SyntheticCohort(
         seed=seed,
         tables=tables,
@@ -222,13 +226,12 @@ def _simulate_layer(
     n_subtypes: int,
     strength: np.ndarray,
     purity: np.ndarray,
-) -> tuple[np.ndarray, pd.DataFrame]:
-    """Values (patients x features, in the layer's own units) and the table of planted markers."""
+) -> tuple[np.ndarray, np.ndarray, pd.DataFrame]:
+    """Values (patients x features, in the layer's own units), feature names, planted markers."""
     n_patients, n_features = subtype.size, recipe.n_features
     group_of_subtype = _layer_groups(recipe.merged_pairs, n_subtypes)
     n_groups = group_of_subtype.max() + 1
-    informative = n_groups > 1
-    n_markers = recipe.markers_per_group * n_groups if informative else 0
+    n_markers = recipe.markers_per_group * n_groups if n_groups > 1 else 0
 
     marker_features = rng.permutation(n_features)[:n_markers]
     marker_group = np.repeat(np.arange(n_groups), recipe.markers_per_group)[:n_markers]
@@ -248,12 +251,15 @@ def _simulate_layer(
 
     names = _feature_names(recipe.name, n_features)
     subtype_names = _subtype_names(n_subtypes)
-    marked = np.full(n_features, None, dtype=object)
-    marked[marker_features] = [",".join(subtype_names[group_of_subtype == g]) for g in marker_group]
-    markers = pd.DataFrame({"subtypes": marked, "direction": 0.0, "effect": 0.0}, index=pd.Index(names))
-    markers.iloc[marker_features, 1] = direction
-    markers.iloc[marker_features, 2] = effect
-    return values, markers
+    markers = pd.DataFrame(
+        {
+            "feature_id": names[marker_features],
+            "subtypes": [",".join(subtype_names[group_of_subtype == g]) for g in marker_group],
+            "direction": direction,
+            "effect": effect,
+        }
+    )
+    return values, names, markers.sort_values("feature_id", ignore_index=True)
 
 
 def _feature_names(layer: str, n_features: int) -> np.ndarray:
@@ -324,7 +330,7 @@ def _clinical(rng: np.random.Generator, patients: np.ndarray, subtype: np.ndarra
 
 
 def _gene_sets(
-    rng: np.random.Generator, genes: pd.Index, markers: pd.DataFrame, n_subtypes: int
+    rng: np.random.Generator, genes: pd.Index, markers: pd.DataFrame
 ) -> tuple[dict[str, tuple[str, list[str]]], dict[str, tuple[str, ...]]]:
     """Forty fictional gene sets: one per RNA marker group enriched in its up-markers, the rest random."""
     up = markers[(markers["layer"] == "rna") & (markers["direction"] > 0)]
