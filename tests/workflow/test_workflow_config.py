@@ -82,3 +82,22 @@ def test_error_in_a_modality_names_it(tiny_files: Path) -> None:
     text = MINIMAL.replace('kind = "log_expression"', 'kind = "count"')
     with pytest.raises(InputError, match=r"'modality\[rna\]\.kind'.*'counts'"):
         parse_workflow(text, tiny_files / "flow.toml")
+
+
+REPOSITORY = Path(__file__).resolve().parents[2]
+
+
+@pytest.mark.parametrize("name", ["synthetic_cohort.toml", "minimal.toml"])
+def test_bundled_workflows_are_valid(name: str) -> None:
+    if not (REPOSITORY / "synthetic_cohort" / "clinical.tsv").is_file():
+        pytest.skip("the bundled synthetic cohort files are not in this checkout")
+    flow = load_workflow(REPOSITORY / "workflows" / name)
+    assert flow.modalities and flow.cohort.clinical.is_file()
+
+
+def test_annotated_workflow_shows_every_key() -> None:
+    text = (REPOSITORY / "workflows" / "synthetic_cohort.toml").read_text()
+    for section, cls in [*SECTIONS.items(), ("modality", ModalitySettings)]:
+        assert f"[{section}]" in text
+        for spec in dataclasses.fields(cls):
+            assert f"\n{spec.name} = " in text or f"\n# {spec.name} = " in text, f"{section}.{spec.name}"

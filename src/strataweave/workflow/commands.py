@@ -81,7 +81,7 @@ def report_command(args: argparse.Namespace, argv: list[str], feedback: Feedback
     folder = finished_run(args.run_dir)
     try:
         results = json.loads((folder.path / RESULTS_FILE).read_text(encoding="utf-8"))
-        formats = results["report"]["formats"]
+        formats = results["report"]["formats"] or ["html", "pdf"]  # asked for now, even if the run wrote none
     except (OSError, ValueError, KeyError, TypeError):
         formats = ["html", "pdf"]
     render_report(folder.path, formats, feedback)

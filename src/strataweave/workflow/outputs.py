@@ -103,7 +103,8 @@ def write_outputs(folder: RunFolder, flow: Workflow, stage_results: dict, manife
     _write_arrays(folder.path / FIGURE_DATA_FILE, arrays)
     atomic_write_text(folder.path / RESULTS_FILE, json.dumps(results, indent=1, allow_nan=False) + "\n")
     folder.write_manifest(manifest)
-    render_report(folder.path, flow.report.formats, feedback)
+    if flow.report.formats:
+        render_report(folder.path, flow.report.formats, feedback)
 
     sizes = ", ".join(f"{name}: {size}" for name, size in zip(grouping.names, grouping.sizes))
     what = "groups evaluated" if groups_given else "subtypes"

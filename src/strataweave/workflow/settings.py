@@ -83,7 +83,7 @@ class GraphSettings:
 class FactorizationSettings:
     """[factorization]: the graph-regularised joint NMF."""
 
-    graph_weight: float = key(rules.number(minimum=0), 1.0)
+    graph_weight: float = key(rules.number(minimum=0), 0.3)
     restarts: int = key(rules.integer(1), 3)
     max_iter: int = key(rules.integer(1), 300)
     tolerance: float = key(rules.number(above=0), 1e-4)
@@ -157,7 +157,8 @@ class ReportSettings:
 
     title: str = key(rules.text(), "Patient subtypes")
     formats: tuple[str, ...] = key(
-        rules.list_of(rules.choice("html", "pdf"), "a list of 'html' and/or 'pdf'"), ("html", "pdf")
+        rules.list_of(rules.choice("html", "pdf"), "a list of 'html' and/or 'pdf'"), ("html", "pdf"),
+        doc="[] = tables and results.json only, no figures or report",
     )
     show_patient_ids: bool = key(rules.flag(), False)
 
