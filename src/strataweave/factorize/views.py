@@ -60,10 +60,11 @@ class ViewBlock:
     def squared_error(self, W_rows: np.ndarray, H: np.ndarray, WtX: np.ndarray, WtW: np.ndarray) -> float:
         """||M o (X - W H)||_F^2, by the expansion ||X||^2 - 2<W^T X, H> + <W^T W, H H^T> if unmasked."""
         if self.entry_mask is None:
-            cross = float(np.vdot(WtX, H))
-            model = float(np.vdot(WtW, H @ H.T))
+            H64 = H.astype(np.float64)
+            cross = float(np.vdot(WtX.astype(np.float64), H64))
+            model = float(np.vdot(WtW.astype(np.float64), H64 @ H64.T))
             return max(self.squared_norm - 2.0 * cross + model, 0.0)
-        return float(np.sum(self.masked(self.data - W_rows @ H) ** 2))
+        return _squared_norm(self.masked(self.data - W_rows @ H))
 
 
 @dataclass(frozen=True)
@@ -133,17 +134,22 @@ def _observed_mask(name: str, values: np.ndarray, mask, patients) -> np.ndarray 
     return None if mask.all() else mask
 
 
+def _squared_norm(data: np.ndarray) -> float:
+    """||X||_F^2 accumulated in float64 whatever the storage type."""
+    return float(np.einsum("ij,ij->", data, data, dtype=np.float64))
+
+
 def _block(name, values, observed, weight, dtype) -> ViewBlock:
     """Keep the observed rows; keep an entry mask only where a row is partly observed."""
     if observed is None:
         data = np.ascontiguousarray(values, dtype=dtype)
-        return ViewBlock(name, data, None, None, weight, float(np.vdot(data, data)))
+        return ViewBlock(name, data, None, None, weight, _squared_norm(data))
     present = observed.any(axis=1)
     rows = np.flatnonzero(present)
     kept = observed[rows]
     data = np.where(kept, values[rows], 0.0).astype(dtype)
     entry_mask = None if kept.all() else kept.astype(dtype)
-    return ViewBlock(name, data, rows, entry_mask, weight, float(np.vdot(data, data)))
+    return ViewBlock(name, data, rows, entry_mask, weight, _squared_norm(data))
 
 
 def _check_values(name: str, values: np.ndarray, patients) -> None:
@@ -155,6 +161,17 @@ def _check_values(name: str, values: np.ndarray, patients) -> None:
     if infinite.any():
         row = int(np.flatnonzero(infinite.any(axis=1))[0])
         raise InputError(f"view {name!r}, {_row_label(patients, row)}: found an infinite value; expected finite numbers")
+
+
+def _numeric(name: str, frame) -> np.ndarray:
+    """The view as a float array, without a copy when it already is one."""
+    values = np.asarray(frame)
+    if values.dtype.kind == "f":
+        return values
+    try:
+        return values.astype(np.float64)
+    except (TypeError, ValueError):
+        raise InputError(f"view {name!r}: found non-numeric values; expected numbers") from None
 
 
 def _default_weight(name: str, squared_norm: float) -> float:
@@ -195,7 +212,7 @@ def prepare_views(
                 raise InputError(f"view {name!r}: column {missing[0]!r} is missing; expected the training features")
             frame = frame[list(feature_names[i])]
         columns.append([str(c) for c in frame.columns] if isinstance(frame, pd.DataFrame) else None)
-        values = np.asarray(frame, dtype=np.float64)
+        values = _numeric(name, frame)
         if values.ndim != 2:
             raise InputError(f"view {name!r}: found {values.ndim} dimensions; expected 2 (patients x features)")
         if n_patients is None:
