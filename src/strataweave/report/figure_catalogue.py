@@ -74,12 +74,12 @@ def plan_figures(run: RunView) -> list[FigurePlan]:
         plans.append(FigurePlan("subtype_baselines", "subtypes", "Agreement of the baseline methods with our subtypes.",
                                 figures_subtypes.draw_baselines, (10.0, 1.8 + 0.8 * len(run.results["baselines"]))))
     if run.has("survival"):
-        plans += [
-            FigurePlan("survival_kaplan_meier", "survival", "Kaplan-Meier curves with numbers at risk.",
-                       figures_outcome.draw_kaplan_meier, (11.0, 7.0)),
-            FigurePlan("survival_cox_forest", "survival", "Hazard ratios of the Cox model with 95% intervals.",
-                       figures_outcome.draw_forest, (12.0, 1.8 + 0.6 * len(run.results["survival"]["cox"]))),
-        ]
+        plans.append(FigurePlan("survival_kaplan_meier", "survival", "Kaplan-Meier curves with numbers at risk.",
+                                figures_outcome.draw_kaplan_meier, (11.0, 7.0)))
+        if run.results["survival"]["cox"]:
+            plans.append(FigurePlan("survival_cox_forest", "survival",
+                                    "Hazard ratios of the Cox model with 95% intervals.", figures_outcome.draw_forest,
+                                    (12.0, 1.8 + 0.6 * len(run.results["survival"]["cox"]))))
     for index, block in enumerate(run.results.get("markers") or []):
         plans.append(FigurePlan(f"markers_{index + 1}", "markers",
                                 f"Top markers per subtype in {block['modality']}.",

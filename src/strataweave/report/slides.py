@@ -126,6 +126,8 @@ def render_slides(run: RunView) -> bytes:
             subtitle = f"Recommended: {selection['recommended']}. {selection['reason']}"
             deck.figure_page("How many subtypes", [figures_selection.draw_criteria], subtitle)
             deck.figure_page("How many subtypes: consensus", [figures_selection.draw_consensus])
+            if selection.get("flow"):
+                deck.figure_page("How many subtypes: splits", [figures_selection.draw_split_flow])
         subtype_draws: list[Draw] = [figures_subtypes.draw_sizes]
         if "embedding" in run.arrays:
             subtype_draws.insert(0, figures_subtypes.draw_embedding)
@@ -133,7 +135,8 @@ def render_slides(run: RunView) -> bytes:
         if run.has("survival"):
             survival = results["survival"]
             deck.figure_page("Survival", [figures_outcome.draw_kaplan_meier], survival.get("not_tested") or "")
-            deck.figure_page("Survival: Cox model", [figures_outcome.draw_forest], survival.get("ph_warning") or "")
+            if survival["cox"]:
+                deck.figure_page("Survival: Cox model", [figures_outcome.draw_forest], survival.get("ph_warning") or "")
         if run.has("clinical"):
             deck.table_page("Clinical associations", rows_table(
                 results["clinical"], ["variable", "test", "effect_size", "effect_size_name", "p_adjusted"]))
