@@ -198,3 +198,24 @@ def test_gene_sets_enriched_in_planted_markers_and_the_rest_not(cohort):
     assert 1 <= len(enriched) < len(random_sets)
     assert max(enriched) < 1e-8
     assert np.mean(np.array(random_sets) < 0.01) < 0.2
+
+
+def _splits(group: str, a: str, b: str) -> bool:
+    """True when a marker group (comma-joined subtypes) holds exactly one of subtypes a and b."""
+    members = group.split(",")
+    return (a in members) != (b in members)
+
+
+@pytest.mark.parametrize("n_subtypes", [2, 3, 4, 5])
+def test_every_pair_of_subtypes_is_told_apart_by_several_layers(n_subtypes):
+    cohort = make_synthetic_cohort(30 * n_subtypes, n_subtypes, seed=3)
+    groups = cohort.markers.groupby("layer")["subtypes"].unique()  # the marker groups each layer sees
+    names = sorted(cohort.planted.unique())
+    assert len(names) == n_subtypes and cohort.planted.value_counts().is_unique  # unequal sizes
+    for a in names:
+        for b in names:
+            if a < b:
+                layers = [layer for layer, seen in groups.items() if any(_splits(g, a, b) for g in seen)]
+                assert len(layers) >= 2, (a, b, layers)
+    if n_subtypes >= 4:
+        assert all(len(seen) < n_subtypes for seen in groups)

@@ -128,11 +128,14 @@ def make_synthetic_cohort(
         order = rng.permutation(present)
         frame = pd.DataFrame(values[order], index=pd.Index(patients[order], name="patient_id"), columns=names)
         frame = frame.iloc[:, rng.permutation(frame.shape[1])]
-        tables[recipe.name] = frame.T.rename_axis(index="feature_id") if recipe.orientation == FEATURES_IN_ROWS else frame
+        if recipe.orientation == FEATURES_IN_ROWS:
+            frame = frame.T.rename_axis(index="feature_id")
+        tables[recipe.name] = frame
         marker_tables.append(layer_markers.assign(layer=recipe.name))
 
     markers = pd.concat(marker_tables, ignore_index=True)
-    labels = pd.Series(_subtype_names(n_subtypes)[subtype], index=pd.Index(patients, name="patient_id"), name="planted_subtype")
+    index = pd.Index(patients, name="patient_id")
+    labels = pd.Series(_subtype_names(n_subtypes)[subtype], index=index, name="planted_subtype")
     gene_sets, enriched = _gene_sets(rng_sets, tables["rna"].index, markers)
     return SyntheticCohort(
         seed=seed,
@@ -140,7 +143,7 @@ def make_synthetic_cohort(
         orientations={r.name: r.orientation for r in RECIPES},
         kinds={r.name: r.kind for r in RECIPES},
         file_names={r.name: r.file_name for r in RECIPES},
-        clinical=_clinical(rng_clinical, patients, subtype),
+        clinical=_clinical(rng_clinical, index, subtype),
         planted=labels,
         gene_sets=gene_sets,
         enriched_sets=enriched,
@@ -163,8 +166,8 @@ def write_synthetic_cohort(
         float_format = "%.4f" if cohort.kinds[name] == "beta" else "%.5g"
         written.append(_write_tsv(table, out / cohort.file_names[name], float_format))
     written.append(_write_tsv(cohort.planted.to_frame(), out / "planted_subtypes.tsv", None, PLANTED_NOTE))
-    lines = ["\t".join([name, description, *members]) + "\n" for name, (description, members) in cohort.gene_sets.items()]
-    atomic_write_text(out / "gene_sets.tsv", "".join(lines))
+    lines = ["\t".join([name, description, *members]) for name, (description, members) in cohort.gene_sets.items()]
+    atomic_write_text(out / "gene_sets.tsv", "\n".join(lines) + "\n")
     written.append(out / "gene_sets.tsv")
     return written
 
@@ -212,10 +215,15 @@ def _missing_layers(rng: np.random.Generator, n_patients: int, n_layers: int) ->
 
 
 def _layer_groups(merged_pairs: tuple[tuple[int, int], ...], n_subtypes: int) -> np.ndarray:
-    """Group index of each subtype as this layer sees it: merged subtypes share one group."""
+    """Group index of each subtype as this layer sees it: merged subtypes share one group.
+
+    A merge that would leave the layer blind to every contrast is skipped (few subtypes).
+    """
     group = np.arange(n_subtypes)
     for a, b in merged_pairs:
-        group[group == group[b % n_subtypes]] = group[a % n_subtypes]
+        merged = np.where(group == group[b % n_subtypes], group[a % n_subtypes], group)
+        if np.unique(merged).size > 1:
+            group = merged
     return np.unique(group, return_inverse=True)[1]
 
 
@@ -263,7 +271,8 @@ def _simulate_layer(
 
 
 def _feature_names(layer: str, n_features: int) -> np.ndarray:
-    pattern = {"rna": "QZG{:04d}", "methylation": "QZM{:05d}", "mirna": "qz-miR-{:03d}", "protein": "QZG{:04d}_p"}[layer]
+    patterns = {"rna": "QZG{:04d}", "methylation": "QZM{:05d}", "mirna": "qz-miR-{:03d}", "protein": "QZG{:04d}_p"}
+    pattern = patterns[layer]
     numbers = np.arange(1, n_features + 1)
     if layer == "protein":  # proteins are products of a spread of the fictional genes
         numbers = numbers * 7
@@ -303,7 +312,7 @@ def _emit_abundance(rng: np.random.Generator, latent: np.ndarray) -> np.ndarray:
 _EMITTERS = {"counts": _emit_counts, "beta": _emit_beta, "abundance": _emit_abundance}
 
 
-def _clinical(rng: np.random.Generator, patients: np.ndarray, subtype: np.ndarray) -> pd.DataFrame:
+def _clinical(rng: np.random.Generator, patients: pd.Index, subtype: np.ndarray) -> pd.DataFrame:
     """Age, sex, stage, treatment centre and overall survival with subtype-dependent hazards."""
     n = patients.size
     log_hazard_ratio = np.array([0.0, 0.6, -0.5, 1.1, 0.3, -0.2, 0.8, 0.1])[subtype]
@@ -325,7 +334,7 @@ def _clinical(rng: np.random.Generator, patients: np.ndarray, subtype: np.ndarra
             "os_months": np.maximum(np.round(np.minimum(event_time, censor_time), 1), 0.1),
             "os_event": (event_time <= censor_time).astype(int),
         },
-        index=pd.Index(patients, name="patient_id"),
+        index=patients,
     )
 
 
