@@ -37,7 +37,7 @@ def _figures_by_section(figures: list[DrawnFigure]) -> dict[str, list[dict[str, 
 
 
 def _subtype_rows(run: RunView) -> list[dict[str, Any]]:
-    codes, core, confidence = run.arrays["subtype_code"], run.arrays["core"], run.arrays["confidence"]
+    codes, core = run.arrays["subtype_code"], run.arrays["core"]
     total = max(sum(run.results["subtypes"]["sizes"]), 1)
     rows = []
     for code, (label, size) in enumerate(zip(run.labels, run.results["subtypes"]["sizes"])):
@@ -45,8 +45,6 @@ def _subtype_rows(run: RunView) -> list[dict[str, Any]]:
         row = {run.group_word: label, "patients": size, "share": f"{100 * size / total:.1f}%"}
         if not run.groups_given:
             row["core patients"] = int(np.count_nonzero(member & core))
-            row["confidence range"] = (f"{confidence[member].min():.2f}-{confidence[member].max():.2f}"
-                                       if member.any() else "\u2013")
         if run.show_patient_ids:
             row["core patient IDs"] = ", ".join(str(i) for i in run.arrays["patient_ids"][member & core])
         rows.append(row)
