@@ -63,8 +63,7 @@ class GraphSmoothness:
         """w_k^T L w_k for each column k of W (without lambda)."""
         return np.einsum("ik,ik->k", W, self.degree * W - self.affinity @ W)
 
-    def numerator(self, W: np.ndarray) -> np.ndarray:
-        return self.strength * (self.degree * W + self.affinity @ W)
-
-    def denominator(self, W: np.ndarray) -> np.ndarray:
-        return (2.0 * self.strength) * (self.degree * W)
+    def update_parts(self, W: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """(lambda (D + A) W, 2 lambda D W): the graph's share of the W update's numerator and denominator."""
+        degree_part = self.strength * (self.degree * W)
+        return degree_part + self.strength * (self.affinity @ W), degree_part + degree_part

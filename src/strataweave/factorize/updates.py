@@ -102,15 +102,18 @@ def repeat_update(update, start: np.ndarray, n_updates: int, stop: float = INNER
 def update_patient_factor(W, P, blocks, loadings, smoothness: GraphSmoothness | None,
                           n_updates: int, settle: float | None = None) -> np.ndarray:
     """Repeat W <- W o (P + graph part) / (sum_v alpha_v (M o W H_v) H_v^T + graph part)."""
-    grams = [H @ H.T for H in loadings]
+    whole = [b.rows is None and b.entry_mask is None for b in blocks]
+    shared_gram = sum(b.weight * (H @ H.T) for b, H, w in zip(blocks, loadings, whole) if w)
+    partial = [(b, H, H @ H.T) for b, H, w in zip(blocks, loadings, whole) if not w]
 
     def step(W):
-        denominator = np.zeros_like(W)
-        for block, H, HHt in zip(blocks, loadings, grams):
+        denominator = W @ shared_gram if any(whole) else np.zeros_like(W)
+        for block, H, HHt in partial:
             block.scatter_add(denominator, block.weight * block.right_model_term(block.restrict(W), H, HHt))
         if smoothness is None:
             return W * _safe_ratio(P, denominator)
-        return W * _safe_ratio(P + smoothness.numerator(W), denominator + smoothness.denominator(W))
+        pull, push = smoothness.update_parts(W)
+        return W * _safe_ratio(P + pull, denominator + push)
 
     return repeat_update(step, W, n_updates, settle=settle)
 
@@ -118,12 +121,18 @@ def update_patient_factor(W, P, blocks, loadings, smoothness: GraphSmoothness | 
 def update_loadings(H, block: ViewBlock, W_rows, WtX, WtW, ridge, n_updates: int,
                     settle: float | None = None) -> np.ndarray:
     """Repeat H <- H o W^T X / (W^T (M o W H) + lambda g o H), with g_k = w_k^T L w_k."""
+    if block.entry_mask is None:
+        system = WtW if ridge is None else WtW + np.diag(ridge)  # (W^T W + lambda diag(g)) H in one product
 
-    def step(H):
-        denominator = block.left_model_term(W_rows, H, WtW)
-        if ridge is not None:
-            denominator = denominator + ridge[:, None] * H
-        return H * _safe_ratio(WtX, denominator)
+        def step(H):
+            return H * _safe_ratio(WtX, system @ H)
+    else:
+
+        def step(H):
+            denominator = block.left_model_term(W_rows, H, WtW)
+            if ridge is not None:
+                denominator = denominator + ridge[:, None] * H
+            return H * _safe_ratio(WtX, denominator)
 
     return repeat_update(step, H, n_updates, settle=settle)
 
