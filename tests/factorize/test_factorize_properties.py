@@ -149,3 +149,19 @@ def test_reconstruction_error_is_relative_frobenius(cohort):
     model = JointNMF(3, max_iter=50, random_state=0).fit(views, affinity)
     direct = [np.linalg.norm(X - model.patient_factor_ @ H) / np.linalg.norm(X) for X, H in zip(views, model.components_)]
     np.testing.assert_allclose(model.reconstruction_error_, direct, rtol=1e-8)
+
+
+@pytest.mark.parametrize("seed", range(4))
+def test_objective_never_increases_on_random_weighted_graphs(seed):
+    # The majoriser 2D >= D - A holds for any non-negative symmetric A (D + A is PSD), so a
+    # random dense-ish weighted graph and a strong weight must still give a monotone trace.
+    import scipy.sparse as sp
+
+    rng = np.random.default_rng(seed)
+    views, _ = planted_views(n_patients=40, features=(15, 12), seed=seed)
+    views[1][rng.random(40) < 0.3] = np.nan
+    upper = sp.random(40, 40, density=0.3, random_state=seed, format="csr")
+    affinity = sp.triu(upper, 1) + sp.triu(upper, 1).T
+    model = JointNMF(3, graph_weight=10.0 ** rng.uniform(-1, 2), max_iter=60, tol=0, init="random", random_state=seed)
+    model.fit(views, affinity)
+    _assert_non_increasing(model.objective_)
