@@ -40,6 +40,14 @@ def test_write_table_guards_cells_and_names_and_writes_comment(tmp_path):
     assert not [p for p in tmp_path.iterdir() if p.name.startswith(".")], "temporary file left behind"
 
 
+def test_atomic_write_gives_the_mode_a_plain_open_would(tmp_path):
+    plain = tmp_path / "plain.txt"
+    plain.write_text("x")
+    written = tmp_path / "atomic.txt"
+    atomic_write_text(written, "x")
+    assert written.stat().st_mode == plain.stat().st_mode
+
+
 def test_atomic_write_leaves_old_content_when_writing_fails(tmp_path):
     path = tmp_path / "a.txt"
     atomic_write_text(path, "old")

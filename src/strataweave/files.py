@@ -12,6 +12,13 @@ import pandas as pd
 _FORMULA_STARTS = ("=", "+", "-", "@")
 
 
+def _current_umask() -> int:
+    """The process umask (reading it requires setting it; it is restored at once)."""
+    mask = os.umask(0)
+    os.umask(mask)
+    return mask
+
+
 def atomic_write_bytes(path: str | os.PathLike, data: bytes) -> None:
     """Write `data` to a temporary file beside `path`, then rename it into place."""
     path = Path(path)
@@ -20,6 +27,7 @@ def atomic_write_bytes(path: str | os.PathLike, data: bytes) -> None:
     try:
         with os.fdopen(fd, "wb") as handle:
             handle.write(data)
+        os.chmod(tmp, 0o666 & ~_current_umask())  # mkstemp makes 0600; give the usual mode
         os.replace(tmp, path)
     except BaseException:
         Path(tmp).unlink(missing_ok=True)
