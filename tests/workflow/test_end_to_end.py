@@ -119,7 +119,7 @@ def test_run_folder_follows_the_contract(finished, cohort) -> None:
     # sha256 from hashlib, computed here independently of the program
     clinical = str((cohort / "clinical.tsv").resolve())
     assert manifest["inputs"][clinical] == hashlib.sha256((cohort / "clinical.tsv").read_bytes()).hexdigest()
-    assert set(manifest["stages"]) == {"load", "prepare", "graphs", "sweep", "select", "final_fit", "evaluate", "outputs"}
+    assert set(manifest["stages"]) == {"load", "prepare", "graphs", "sweep", "select", "final_fit", "evaluate", "report"}
     assert "numpy" in manifest["packages"] and "[cohort]" in manifest["workflow"]["text"]
 
 
@@ -162,7 +162,7 @@ def test_finished_run_is_not_overwritten_and_one_change_reruns_only_its_stages(f
     subprocess.run(["cp", "-r", str(finished), str(copy)], check=True)
     assert main(["run", str(changed), "--out", str(copy), "--quiet", "--overwrite"]) == 0
     stages = json.loads((copy / "manifest.json").read_text())["stages"]
-    assert [name for name, stage in stages.items() if not stage["cached"]] == ["evaluate", "outputs"]
+    assert [name for name, stage in stages.items() if not stage["cached"]] == ["evaluate", "report"]
     assert (copy / "assignments.tsv").read_bytes() == before
 
 

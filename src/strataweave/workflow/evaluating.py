@@ -15,7 +15,7 @@ from strataweave.evaluate.markers import markers_by_modality
 from strataweave.evaluate.survival import evaluate_survival
 from strataweave.seeding import child_seeds
 from strataweave.workflow.config import Workflow
-from strataweave.workflow.preparing import marker_views
+from strataweave.workflow.preparing import normalised_views
 from strataweave.workflow.progress import Feedback
 
 
@@ -64,7 +64,7 @@ def evaluate_grouping(
     if prepared is not None and prepared["views"]:
         markers = markers_by_modality(
             labels,
-            marker_views(prepared),
+            normalised_views(prepared),
             test=settings.marker_test,
             top_n=settings.markers_per_subtype,
             fdr=settings.marker_fdr,

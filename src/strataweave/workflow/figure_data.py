@@ -62,7 +62,7 @@ def _marker_arrays(i: int, view: pd.DataFrame, rows: list[dict], grouping: Repor
 
 
 def build_figure_data(
-    stage_results: dict, results: dict, grouping: ReportedGrouping, marker_views: dict[str, pd.DataFrame],
+    stage_results: dict, results: dict, grouping: ReportedGrouping, views: dict[str, pd.DataFrame],
     show_patient_ids: bool,
 ) -> dict[str, np.ndarray]:
     """Every array the report reads for this run."""
@@ -89,5 +89,5 @@ def build_figure_data(
     if "survival" in evaluation:
         arrays.update(_survival_arrays(evaluation["survival"]["summary"]))
     for i, section in enumerate(results.get("markers", [])):
-        arrays.update(_marker_arrays(i, marker_views[section["modality"]], section["rows"], grouping))
+        arrays.update(_marker_arrays(i, views[section["modality"]], section["rows"], grouping))
     return arrays

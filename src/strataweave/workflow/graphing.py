@@ -8,13 +8,14 @@ from scipy.sparse.csgraph import connected_components
 
 from strataweave.graph import fuse_modalities, graph_diagnostics, modality_agreement, spectral_embedding
 from strataweave.workflow.config import Workflow
+from strataweave.workflow.preparing import normalised_views
 from strataweave.workflow.progress import Feedback
 
 
 def build_graph(flow: Workflow, prepared: dict, feedback: Feedback) -> dict:
     """The fused affinity on the analysis patients (their order), its diagnostics and a 2-D embedding."""
     settings = flow.graph
-    views = prepared["views"]
+    views = normalised_views(prepared)
     with feedback.bar("patient graphs", 2 * len(views)) as progress:
         graph = fuse_modalities(
             views,

@@ -20,7 +20,7 @@ from strataweave.workflow.config import Workflow
 from strataweave.workflow.figure_data import build_figure_data
 from strataweave.workflow.grouping import ReportedGrouping, analysis_patients, given_grouping, subtype_grouping
 from strataweave.workflow.model_files import write_model
-from strataweave.workflow.preparing import marker_views
+from strataweave.workflow.preparing import normalised_views
 from strataweave.workflow.progress import Feedback
 from strataweave.workflow.results import build_results
 from strataweave.workflow.run_folder import RunFolder
@@ -92,7 +92,7 @@ def write_outputs(folder: RunFolder, flow: Workflow, stage_results: dict, manife
     groups_given = "final_fit" not in stage_results
     results = build_results(flow, stage_results, grouping, groups_given)
     prepared = stage_results.get("prepare")
-    views = marker_views(prepared) if prepared is not None else {}
+    views = normalised_views(prepared) if prepared is not None else {}
     arrays = build_figure_data(stage_results, results, grouping, views, flow.report.show_patient_ids)
     check_results(results)
     check_figure_data(arrays, results)

@@ -3,7 +3,9 @@
 Patients in the analysis are those of the clinical table measured on at least one
 modality, in the clinical table's order. Each modality keeps only its measured patients;
 `aligned_views` puts them on the common patient index (all-NaN rows where a modality is
-missing), which is how the factorisation is told about a missing modality.
+missing), which is how the factorisation is told about a missing modality. The patient
+graph and the marker tests read `normalised_views` instead: the same data before the
+non-negativity step.
 """
 
 from __future__ import annotations
@@ -39,7 +41,7 @@ def prepare_cohort(flow: Workflow, loaded: dict) -> dict:
     clinical, raw = loaded["clinical"], loaded["raw"]
     measured_anywhere = pd.Index([]).append([frame.index for frame in raw.values()]) if raw else pd.Index([])
     patients = clinical.index[clinical.index.isin(measured_anywhere)] if raw else clinical.index
-    views, marker_views, preprocessors, qc = {}, {}, {}, []
+    views, unsplit, preprocessors, qc = {}, {}, {}, []
     for modality in flow.modalities:
         frame = raw[modality.name]
         measured = frame.loc[frame.index.isin(patients)]
@@ -52,7 +54,7 @@ def prepare_cohort(flow: Workflow, loaded: dict) -> dict:
         fitted = Preprocessor(**modality.preprocessing()).fit(measured, source=source)
         views[modality.name] = fitted.transform(measured, source=source)
         if modality.non_negative == "split":
-            marker_views[modality.name] = _unsplit_view(modality, measured, source)
+            unsplit[modality.name] = _unsplit_view(modality, measured, source)
         state, arrays = fitted.to_state()
         preprocessors[modality.name] = {"state": state, "arrays": arrays}
         qc.append(_qc_row(modality.name, modality.kind, frame, measured, fitted))
@@ -62,7 +64,7 @@ def prepare_cohort(flow: Workflow, loaded: dict) -> dict:
     return {
         "patients": patients,
         "views": views,
-        "marker_views": marker_views,
+        "unsplit_views": unsplit,
         "preprocessors": preprocessors,
         "presence": presence,
         "qc": qc,
@@ -71,14 +73,18 @@ def prepare_cohort(flow: Workflow, loaded: dict) -> dict:
 
 
 def _unsplit_view(modality, measured: pd.DataFrame, source: str) -> pd.DataFrame:
-    """The same preprocessing without the sign split: one column per feature, for marker tests."""
+    """The same preprocessing without the sign split: one column per feature."""
     options = {**modality.preprocessing(), "non_negative": "none"}
     return Preprocessor(**options).fit_transform(measured, source=source)
 
 
-def marker_views(prepared: dict) -> dict[str, pd.DataFrame]:
-    """Each modality on its normalised scale with its own feature names (a shift keeps both)."""
-    return {name: prepared["marker_views"].get(name, view) for name, view in prepared["views"].items()}
+def normalised_views(prepared: dict) -> dict[str, pd.DataFrame]:
+    """Each modality on its normalised scale, one column per feature: for patient distances and markers.
+
+    A shift keeps both distances and feature names, so the model's view serves; a sign split
+    keeps neither, so its modality was also prepared without the split.
+    """
+    return {name: prepared["unsplit_views"].get(name, view) for name, view in prepared["views"].items()}
 
 
 def aligned_views(prepared: dict) -> list[pd.DataFrame]:

@@ -79,10 +79,10 @@ def run_workflow(
 
     check_columns(flow, pipeline.result("load")["clinical"])
     results = {name: pipeline.result(name) for name in pipeline.stages}
-    recorder.stage_started("outputs", cached=False)
+    recorder.stage_started("report", cached=False)
     start = time.perf_counter()
     summary = write_outputs(folder, flow, results, manifest, feedback)
-    recorder.stage_finished("outputs", "-" * 16, time.perf_counter() - start, cached=False)
+    recorder.stage_finished("report", "-" * 16, time.perf_counter() - start, cached=False)
 
     cache.prune(pipeline.keys)
     manifest.update(status="finished", finished=now_text(), current_stage=None)
