@@ -36,8 +36,11 @@ def _cohort(grouping: ReportedGrouping, prepared: dict | None) -> dict:
     return {"patients": len(grouping.patients), "modalities": modalities}
 
 
-def _survival(part: dict) -> dict:
-    return {key: value for key, value in part["summary"].items() if key != "km"}
+def _survival(part: dict, time_unit: str | None) -> dict:
+    section = {key: value for key, value in part["summary"].items() if key != "km"}
+    if time_unit is not None:
+        section["time_unit"] = time_unit
+    return section
 
 
 def _markers(part: dict) -> list[dict]:
@@ -75,7 +78,7 @@ def build_results(
         results["baselines"] = sections["baselines"]
     evaluation = stage_results["evaluate"]
     if "survival" in evaluation:
-        results["survival"] = _survival(evaluation["survival"])
+        results["survival"] = _survival(evaluation["survival"], flow.cohort.time_unit)
     results["clinical"] = _clinical(evaluation["clinical"])
     if "markers" in evaluation:
         results["markers"] = _markers(evaluation["markers"])

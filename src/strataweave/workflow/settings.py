@@ -36,6 +36,7 @@ class CohortSettings:
     id_column: str = key(rules.text(), "patient_id", doc="column with the patient identifiers")
     time_column: str | None = key(rules.text(), None, doc="survival time column")
     event_column: str | None = key(rules.text(), None, doc="event column: 1 = event, 0 = censored")
+    time_unit: str | None = key(rules.text(), None, doc="unit of the survival time, for axis labels")
 
 
 @dataclass(frozen=True)
