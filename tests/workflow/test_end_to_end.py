@@ -123,21 +123,24 @@ def test_run_folder_follows_the_contract(finished, cohort) -> None:
     assert "numpy" in manifest["packages"] and "[cohort]" in manifest["workflow"]["text"]
 
 
-def _kill_during_sweep(command: list[str]) -> None:
+def _signal_during_sweep(command: list[str], signal_number: int) -> tuple[int, str]:
+    """Start the run, send the signal once the sweep has started; exit code and the rest of stderr."""
     process = subprocess.Popen(command, stderr=subprocess.PIPE, text=True, start_new_session=True)
     for line in process.stderr:
         if line.startswith("sweep: running"):
-            os.killpg(process.pid, signal.SIGKILL)
+            os.killpg(process.pid, signal_number)
             break
+    rest = process.stderr.read()
     process.wait(timeout=60)
-    assert process.returncode == -signal.SIGKILL, "the run ended before the sweep could be interrupted"
+    return process.returncode, rest
 
 
 def test_resume_after_kill_gives_byte_identical_tables(finished, tmp_path) -> None:
     flow = finished.parent / "flow.toml"
     out = tmp_path / "resumed"
     command = [sys.executable, "-m", "strataweave.cli", "run", str(flow), "--out", str(out), "--verbose"]
-    _kill_during_sweep(command)
+    returncode, _ = _signal_during_sweep(command, signal.SIGKILL)
+    assert returncode == -signal.SIGKILL, "the run ended before the sweep could be interrupted"
     manifest = json.loads((out / "manifest.json").read_text())
     assert manifest["status"] == "running" and "sweep" not in manifest["stages"]
     assert not list((out / "stages").glob("sweep-*.json"))
@@ -147,6 +150,15 @@ def test_resume_after_kill_gives_byte_identical_tables(finished, tmp_path) -> No
     assert stages["prepare"]["cached"] and not stages["sweep"]["cached"]
     for name in TABLES + [f"markers/{m}.tsv" for m in FILES]:
         assert (out / name).read_bytes() == (finished / name).read_bytes(), name
+
+
+def test_ctrl_c_during_the_sweep_exits_130_with_one_line(finished, tmp_path) -> None:
+    command = [sys.executable, "-m", "strataweave.cli", "run", str(finished.parent / "flow.toml"),
+               "--out", str(tmp_path / "interrupted"), "--verbose"]
+    returncode, rest = _signal_during_sweep(command, signal.SIGINT)
+    assert returncode == 130
+    assert rest.strip().splitlines()[-1] == "strataweave run: interrupted; run the same command again to resume"
+    assert json.loads((tmp_path / "interrupted" / "manifest.json").read_text())["status"] == "running"
 
 
 def test_finished_run_is_not_overwritten_and_one_change_reruns_only_its_stages(finished, cohort, tmp_path, capsys) -> None:

@@ -55,3 +55,14 @@ def test_finished_run_reads_only_run_folders(tmp_path) -> None:
     _manifest(tmp_path / "done", "finished")
     assert RunFolder(tmp_path / "done").is_finished()
     assert finished_run(tmp_path / "done").path == (tmp_path / "done").resolve()
+
+
+def test_clearing_outputs_keeps_the_stage_cache_and_foreign_files(tmp_path) -> None:
+    run = tmp_path / "run"
+    _manifest(run, "finished")
+    for name in ["results.json", "markers/old_layer.tsv", "figures/a.png", "stages/load-1234.json", "notes.txt"]:
+        (run / name).parent.mkdir(parents=True, exist_ok=True)
+        (run / name).write_text("x")
+    RunFolder(run).clear_outputs()
+    left = sorted(str(p.relative_to(run)) for p in run.rglob("*") if p.is_file())
+    assert left == ["manifest.json", "notes.txt", "stages/load-1234.json"]

@@ -97,6 +97,7 @@ def write_outputs(folder: RunFolder, flow: Workflow, stage_results: dict, manife
     check_results(results)
     check_figure_data(arrays, results)
 
+    folder.clear_outputs()
     write_tables(folder.path, stage_results, grouping)
     if not groups_given:
         write_model(folder.path / "model", flow, prepared, stage_results["final_fit"])

@@ -8,6 +8,7 @@ running the same command again.
 from __future__ import annotations
 
 import json
+import shutil
 from pathlib import Path
 
 from strataweave.errors import InputError
@@ -15,6 +16,10 @@ from strataweave.files import atomic_write_text
 
 RUN_FORMAT = "strataweave run folder"
 MANIFEST = "manifest.json"
+OUTPUTS = (
+    "results.json", "assignments.tsv", "rank_selection.tsv", "survival.tsv", "clinical.tsv", "enrichment.tsv",
+    "report.html", "slides.pdf", "stages/figure_data.npz", "markers", "model", "figures",
+)
 
 
 class RunFolder:
@@ -43,6 +48,15 @@ class RunFolder:
 
     def write_manifest(self, manifest: dict) -> None:
         atomic_write_text(self.manifest_path, json.dumps(manifest, indent=2) + "\n")
+
+    def clear_outputs(self) -> None:
+        """Remove what an earlier run wrote here (never the stage cache), so nothing stale stays."""
+        for name in OUTPUTS:
+            path = self.path / name
+            if path.is_dir():
+                shutil.rmtree(path)
+            else:
+                path.unlink(missing_ok=True)
 
     def is_finished(self) -> bool:
         manifest = self.read_manifest()
