@@ -3,13 +3,14 @@
 import pytest
 
 from cohort import prepared_cohort
-from strataweave.subtypes import SweepSettings, compare_partitions, sweep_subtype_counts
+from strataweave.subtypes import ParallelSettings, SweepSettings, compare_partitions, sweep_subtype_counts
 
 PLANTED = 4
 SEEDS = [1, 2, 3, 4, 5]
 # A small configuration: speed settings of the clusterer only; the recommendation rule is the default.
 SETTINGS = SweepSettings(n_resamples=10, resample_restarts=3)
 FACTORIZATION = {"max_iter": 100, "inner_updates": 2, "tol": 1e-4}
+TWO_PROCESSES = ParallelSettings("processes", n_jobs=2)
 
 
 @pytest.mark.slow
@@ -18,7 +19,8 @@ def test_recommended_count_equals_the_planted_count_for_most_generator_seeds():
     for seed in SEEDS:
         cohort = prepared_cohort(n_patients=200, n_subtypes=PLANTED, seed=seed, top_features=60)
         result = sweep_subtype_counts(
-            cohort.views, cohort.graph, range(2, 7), settings=SETTINGS, factorization=FACTORIZATION, random_state=seed
+            cohort.views, cohort.graph, range(2, 7), settings=SETTINGS, factorization=FACTORIZATION, random_state=seed,
+            parallel=TWO_PROCESSES,
         )
         # reference for agreement with the planted labels: adjusted Rand index (checked against scikit-learn
         # in test_compare.py)

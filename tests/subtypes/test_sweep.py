@@ -112,7 +112,7 @@ def test_user_count_overrides_the_rule_but_not_min_size(result):
 
 
 @pytest.mark.slow
-def test_labels_are_identical_on_serial_and_dask_and_warm_starts_run(result, cohort):
+def test_labels_are_identical_on_serial_and_dask_and_warm_starts_with_feature_draws_run(result, cohort):
     dask = sweep_subtype_counts(
         cohort.views, cohort.graph, COUNTS, settings=SETTINGS, factorization=FAST_NMF, random_state=1,
         parallel=ParallelSettings("dask", n_jobs=2, local_cluster_processes=False),
@@ -121,7 +121,8 @@ def test_labels_are_identical_on_serial_and_dask_and_warm_starts_run(result, coh
         np.testing.assert_array_equal(dask.resample_labels[k], result.resample_labels[k])
         assert dask.assignments[k].equals(result.assignments[k])
     warm = sweep_subtype_counts(
-        cohort.views, cohort.graph, [3], settings=SweepSettings(n_resamples=3, min_size=5, warm_start=True),
+        cohort.views, cohort.graph, [3],
+        settings=SweepSettings(n_resamples=3, min_size=5, warm_start=True, feature_fraction=0.5, resample_restarts=1),
         factorization=FAST_NMF, random_state=1,
     )
     assert (warm.resample_labels[3] != NOT_DRAWN).sum(axis=1).tolist() == [72, 72, 72]
