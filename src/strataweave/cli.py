@@ -9,6 +9,7 @@ from __future__ import annotations
 import argparse
 import sys
 import traceback
+import warnings
 from pathlib import Path
 
 from strataweave import __version__
@@ -126,7 +127,10 @@ def _dispatch(args: argparse.Namespace, argv: list[str]) -> int:
 
     feedback = Feedback(QUIET if args.quiet else VERBOSE if args.verbose else NORMAL)
     handler = getattr(commands, f"{args.verb}_command")
-    return handler(args, argv, feedback)
+    with warnings.catch_warnings():
+        if args.quiet:
+            warnings.simplefilter("ignore")
+        return handler(args, argv, feedback)
 
 
 def main(argv: list[str] | None = None) -> int:

@@ -28,12 +28,14 @@ def parameters(flow: Workflow) -> dict:
 
 
 def _cohort(grouping: ReportedGrouping, prepared: dict | None) -> dict:
-    modalities = []
+    """Patients and modalities as analysed; patients of a matrix absent from the clinical table are counted."""
+    section: dict = {"patients": len(grouping.patients), "modalities": []}
     if prepared is not None:
         measured = prepared["presence"].loc[grouping.patients]
         for row in prepared["qc"]:
-            modalities.append({**row, "patients": int(measured[row["name"]].sum())})
-    return {"patients": len(grouping.patients), "modalities": modalities}
+            section["modalities"].append({**row, "patients": int(measured[row["name"]].sum())})
+        section["left_out_not_in_clinical"] = prepared["dropped"]
+    return section
 
 
 def _survival(part: dict, time_unit: str | None) -> dict:
