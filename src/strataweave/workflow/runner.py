@@ -7,12 +7,13 @@ so the tables come out byte for byte the same.
 
 from __future__ import annotations
 
+import dataclasses
 import time
 from pathlib import Path
 
 from strataweave.files import sha256_file
 from strataweave.seeding import child_seeds
-from strataweave.workflow.cache import StageCache
+from strataweave.workflow.cache import StageCache, stage_key
 from strataweave.workflow.config import Workflow
 from strataweave.workflow.groups import read_groups
 from strataweave.workflow.loading import check_columns
@@ -21,7 +22,7 @@ from strataweave.workflow.pipeline import Pipeline
 from strataweave.workflow.progress import Feedback
 from strataweave.workflow.run_folder import RunFolder, prepare_run_folder
 
-SEEDED_STAGES = ("sweep", "final_fit", "evaluate")
+SEEDED_STAGES = ("sweep", "evaluate")
 
 
 def stage_seeds(seed: int) -> dict[str, int]:
@@ -58,7 +59,7 @@ def run_workflow(
     """Run every stage of `flow` into the run folder `out`; returns a one-line summary.
 
     With `groups_file` (a grouping the user brings) the run evaluates that grouping instead
-    of finding subtypes: load, prepare (when there are modalities), evaluate, outputs.
+    of finding subtypes: load, prepare (when there are modalities), evaluate, report.
     """
     from strataweave.workflow.outputs import write_outputs
     from strataweave.workflow.stages import build_stages
@@ -82,7 +83,8 @@ def run_workflow(
     recorder.stage_started("report", cached=False)
     start = time.perf_counter()
     summary = write_outputs(folder, flow, results, manifest, feedback)
-    recorder.stage_finished("report", "-" * 16, time.perf_counter() - start, cached=False)
+    report_key = stage_key("report", dataclasses.asdict(flow.report), pipeline.keys)  # recorded, never cached
+    recorder.stage_finished("report", report_key, time.perf_counter() - start, cached=False)
 
     cache.prune(pipeline.keys)
     manifest.update(status="finished", finished=now_text(), current_stage=None)
