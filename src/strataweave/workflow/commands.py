@@ -44,9 +44,7 @@ def evaluate_command(args: argparse.Namespace, argv: list[str], feedback: Feedba
 def check_command(args: argparse.Namespace, argv: list[str], feedback: Feedback) -> int:
     from strataweave.workflow.checking import check_inputs
 
-    flow_summary, qc = check_inputs(args.workflow)
-    print(flow_summary)
-    print(qc.to_string())
+    print(check_inputs(args.workflow))
     return 0
 
 
