@@ -248,7 +248,7 @@ def _simulate_layer(
     shift = np.zeros((n_groups, n_features))
     shift[marker_group, marker_features] = direction * effect
 
-    purity_loading = np.where(rng.random(n_features) < recipe.purity_features, rng.normal(0.0, 0.35, n_features), 0.0)
+    purity_loading = np.where(rng.random(n_features) < recipe.purity_features, rng.normal(0.0, 0.15, n_features), 0.0)
     noise_scale = recipe.noise * rng.uniform(0.8, 1.2, n_features)
     latent = (
         shift[group_of_subtype[subtype]] * strength[:, None]
