@@ -110,3 +110,20 @@ def test_check_names_a_clinical_column_that_is_absent(tmp_path, capsys) -> None:
     (tmp_path / "flow.toml").write_text(text)
     assert main(["check", str(tmp_path / "flow.toml")]) == 2
     assert "'cohort.time_column'" in capsys.readouterr().err
+
+
+def test_run_refuses_a_folder_that_is_not_a_run_folder(tmp_path, capsys) -> None:
+    write_tiny_files(tmp_path)
+    (tmp_path / "out").mkdir()
+    (tmp_path / "out" / "notes.txt").write_text("mine")
+    assert main(["run", str(tmp_path / "flow.toml"), "--out", str(tmp_path / "out")]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "no run manifest" in err[0]
+    assert [p.name for p in (tmp_path / "out").iterdir()] == ["notes.txt"]
+
+
+@pytest.mark.parametrize("verb", [["assign", "{run}", "--modality", "rna=x.tsv"], ["report", "{run}"],
+                                  ["compare", "{run}", "{run}"]])
+def test_verbs_that_read_a_run_refuse_other_folders(tmp_path, capsys, verb) -> None:
+    assert main([word.format(run=tmp_path) for word in verb]) == 2
+    assert "no run manifest" in capsys.readouterr().err
