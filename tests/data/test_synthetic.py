@@ -121,6 +121,14 @@ def test_reader_and_generator_reject_bad_input(tmp_path):
     bad.write_text("id\tgroup\nCLB-0001\tS1\n")
     with pytest.raises(InputError, match="planted.tsv, header"):
         read_planted_subtypes(bad)
+    bad.write_bytes(b"patient_id\tplanted_subtype\nCLB-0001\tS1\nCLB-0001\tS2\n")
+    with pytest.raises(InputError, match="planted.tsv, column patient_id: found 'CLB-0001' twice"):
+        read_planted_subtypes(bad)
+    bad.write_bytes(b"\xff\xfe\x00\x81 not text")
+    with pytest.raises(InputError, match="planted.tsv"):
+        read_planted_subtypes(bad)
+    with pytest.raises(InputError, match="missing.tsv"):
+        read_planted_subtypes(tmp_path / "missing.tsv")
     with pytest.raises(InputError, match="n_patients"):
         make_synthetic_cohort(n_patients=20)
     with pytest.raises(InputError, match="n_subtypes"):

@@ -10,6 +10,7 @@ noise; some patients miss a whole layer; survival hazards differ by subtype.
 from __future__ import annotations
 
 import gzip
+import math
 import os
 from dataclasses import dataclass
 from pathlib import Path
@@ -174,18 +175,25 @@ def write_synthetic_cohort(
 
 def read_planted_subtypes(path: str | os.PathLike) -> pd.Series:
     """The planted subtype per patient from a `planted_subtypes.tsv` (its '# ' note line skipped)."""
-    table = pd.read_csv(path, sep="\t", comment="#", dtype=str)
+    try:
+        table = pd.read_csv(path, sep="\t", comment="#", dtype=str)
+    except (OSError, ValueError, UnicodeDecodeError) as error:
+        reason = str(error).splitlines()[0] if str(error) else type(error).__name__
+        raise InputError(f"{path}: found an unreadable file ({reason}), expected a tab-separated table") from error
     if list(table.columns) != ["patient_id", "planted_subtype"]:
         raise InputError(f"{path}, header: found {list(table.columns)}, expected ['patient_id', 'planted_subtype']")
+    repeated = table["patient_id"][table["patient_id"].duplicated()]
+    if not repeated.empty:
+        raise InputError(f"{path}, column patient_id: found {repeated.iloc[0]!r} twice, expected unique patients")
     return table.set_index("patient_id")["planted_subtype"]
 
 
 def _check_size(n_patients: int, n_subtypes: int) -> None:
     if not 2 <= n_subtypes <= _MAX_SUBTYPES:
         raise InputError(f"n_subtypes: found {n_subtypes}, expected an integer from 2 to {_MAX_SUBTYPES}")
-    smallest = _MIN_PATIENTS_PER_SUBTYPE * n_subtypes * 3
-    if n_patients < smallest:
-        raise InputError(f"n_patients: found {n_patients}, expected at least {smallest} for {n_subtypes} subtypes")
+    needed = math.ceil(_MIN_PATIENTS_PER_SUBTYPE / _subtype_shares(n_subtypes).min())
+    if n_patients < needed:
+        raise InputError(f"n_patients: found {n_patients}, expected at least {needed} for {n_subtypes} subtypes")
 
 
 def _patient_ids(n_patients: int) -> np.ndarray:
@@ -197,10 +205,15 @@ def _subtype_names(n_subtypes: int) -> np.ndarray:
     return np.array([f"S{i + 1}" for i in range(n_subtypes)])
 
 
-def _subtype_sizes(n_patients: int, n_subtypes: int) -> np.ndarray:
-    """Unequal sizes falling linearly from the first to the last subtype (35/28/22/15 % for four)."""
+def _subtype_shares(n_subtypes: int) -> np.ndarray:
+    """Unequal shares falling linearly from the first to the last subtype (35/28/22/15 % for four)."""
     weights = 1.0 - 0.57 * np.arange(n_subtypes) / (n_subtypes - 1)
-    exact = n_patients * weights / weights.sum()
+    return weights / weights.sum()
+
+
+def _subtype_sizes(n_patients: int, n_subtypes: int) -> np.ndarray:
+    """Whole patient counts per subtype, summing to `n_patients` (largest remainders round up)."""
+    exact = n_patients * _subtype_shares(n_subtypes)
     sizes = np.floor(exact).astype(int)
     sizes[np.argsort(sizes - exact)[: n_patients - sizes.sum()]] += 1
     return sizes
