@@ -7,6 +7,7 @@ the program; 130 interrupted (run the same command again to resume).
 from __future__ import annotations
 
 import argparse
+import os
 import sys
 import traceback
 import warnings
@@ -147,6 +148,9 @@ def main(argv: list[str] | None = None) -> int:
         text = " ".join(str(problem).split())
         print(f"strataweave {args.verb}: error: {text}", file=sys.stderr)
         return 2
+    except BrokenPipeError:  # the reader of the output stopped early (e.g. `| head`): not a fault
+        os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        return 0
     except KeyboardInterrupt:
         print(f"strataweave {args.verb}: interrupted; run the same command again to resume", file=sys.stderr)
         return 130

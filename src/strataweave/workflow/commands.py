@@ -49,14 +49,16 @@ def check_command(args: argparse.Namespace, argv: list[str], feedback: Feedback)
 
 
 def assign_command(args: argparse.Namespace, argv: list[str], feedback: Feedback) -> int:
-    from strataweave.files import write_table
+    from strataweave.caution import CAUTION
+    from strataweave.files import guarded, write_table
     from strataweave.workflow.assign import assign_new_patients
 
     table = assign_new_patients(args.run_dir, dict(args.modality))
     if args.out is None:
-        table.to_csv(sys.stdout, sep="\t", index=False, float_format="%.6g", lineterminator="\n")
+        print(f"# {CAUTION}")
+        guarded(table).to_csv(sys.stdout, sep="\t", index=False, float_format="%.6g", lineterminator="\n")
     else:
-        write_table(table, args.out)
+        write_table(table, args.out, comment=CAUTION)
         feedback.say(f"assigned {len(table)} patients: {args.out}")
     return 0
 
