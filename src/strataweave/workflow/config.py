@@ -61,7 +61,9 @@ class Workflow:
         """A copy with the command line's --seed / --jobs applied."""
         changed = self
         if seed is not None:
-            changed = dataclasses.replace(changed, seed=TOP_LEVEL_RULES["seed"](seed, self.source.parent))
+            if not 0 <= seed < 2**32:
+                raise InputError(f"--seed: found {seed}, expected an integer from 0 to 2**32 - 1")
+            changed = dataclasses.replace(changed, seed=seed)
         if jobs is not None:
             if jobs < 1:
                 raise InputError(f"--jobs: found {jobs}, expected an integer >= 1")
