@@ -127,3 +127,15 @@ def test_run_refuses_a_folder_that_is_not_a_run_folder(tmp_path, capsys) -> None
 def test_verbs_that_read_a_run_refuse_other_folders(tmp_path, capsys, verb) -> None:
     assert main([word.format(run=tmp_path) for word in verb]) == 2
     assert "no run manifest" in capsys.readouterr().err
+
+
+def test_synth_writes_a_cohort_that_check_accepts(tmp_path, capsys) -> None:
+    assert main(["synth", str(tmp_path / "cohort"), "--patients", "120", "--seed", "5", "--quiet"]) == 0
+    names = sorted(p.name for p in (tmp_path / "cohort").iterdir())
+    assert {"clinical.tsv", "planted_subtypes.tsv", "gene_sets.tsv"} <= set(names)
+    (tmp_path / "flow.toml").write_text(
+        '[cohort]\nclinical = "cohort/clinical.tsv"\n[[modality]]\nname = "protein"\n'
+        'path = "cohort/protein_abundance.tsv"\nkind = "abundance"\n'
+    )
+    assert main(["check", str(tmp_path / "flow.toml")]) == 0
+    assert "120 patients" in capsys.readouterr().out
