@@ -6,6 +6,8 @@ import pytest
 
 from strataweave import InputError
 from strataweave.data import Cohort, Modality, prepare_modality, presence_patterns, qc_summary, read_clinical, read_matrix
+from strataweave.data.cohort import CASE_ONLY, NOT_IN_CLINICAL, unsplit_data
+from strataweave.data.qc import unmatched_counts
 
 CLINICAL_IDS = [f"P{i:02d}" for i in range(12)]
 
@@ -41,9 +43,30 @@ def test_patients_outside_the_clinical_table_are_reported_not_merged():
     rna = _modality("rna", CLINICAL_IDS[:8] + ["p09", "Q1"])
     cohort = Cohort(_clinical(), [rna], min_patients=3)
     assert "p09" not in cohort.patients and "P09" not in cohort.patients
-    reasons = dict(zip(cohort.unmatched["patient_id"], cohort.unmatched["reason"]))
-    assert reasons == {"p09": "differs only in case from clinical 'P09'", "Q1": "not in the clinical table"}
+    rows = cohort.unmatched.set_index("patient_id")
+    assert rows.loc["p09", "reason"] == CASE_ONLY and rows.loc["p09", "clinical_id"] == "P09"
+    assert rows.loc["Q1", "reason"] == NOT_IN_CLINICAL and rows.loc["Q1", "clinical_id"] == ""
     assert qc_summary(cohort).loc["rna", "patients_unmatched"] == 2
+    counts = unmatched_counts(cohort.unmatched)
+    assert sorted(counts.itertuples(index=False, name=None)) == sorted(
+        [("rna", CASE_ONLY, 1), ("rna", NOT_IN_CLINICAL, 1)]
+    )
+    assert "p09" not in counts.to_string() and "Q1" not in counts.to_string()
+
+
+def test_unsplit_data_is_the_preparation_without_the_sign_split():
+    rng = np.random.default_rng(3)
+    raw = pd.DataFrame(rng.normal(size=(12, 6)), index=CLINICAL_IDS, columns=[f"GX{j}" for j in range(6)])
+    raw.iloc[2, 1] = np.nan
+    options = {"top_features": 4, "impute": "knn", "impute_neighbours": 3, "scale": "zscore"}
+    split = prepare_modality("rna", "log_expression", raw, non_negative="split", **options)
+    plain = prepare_modality("rna", "log_expression", raw, non_negative="none", **options)
+    unsplit = unsplit_data(split)
+    pd.testing.assert_frame_equal(unsplit, plain.data)
+    # split_signs gives [max(x, 0), max(-x, 0)]: positive part minus negative part is x again.
+    n = unsplit.shape[1]
+    np.testing.assert_allclose(split.data.iloc[:, :n].to_numpy() - split.data.iloc[:, n:].to_numpy(), unsplit.to_numpy())
+    assert unsplit_data(plain) is plain.data
 
 
 def test_no_shared_patient_is_an_error_naming_the_modality():

@@ -11,6 +11,8 @@ from strataweave.data.preprocess import Preprocessor
 from strataweave.data.validation import check_identifiers, check_kind, check_patient_count
 
 DEFAULT_MIN_PATIENTS = 10
+NOT_IN_CLINICAL = "not in the clinical table"
+CASE_ONLY = "differs only in case from a clinical ID"
 
 
 @dataclass(frozen=True)
@@ -53,13 +55,33 @@ def prepare_modality(
     return Modality(name, kind, preprocessor.transform(raw, source=label), source, preprocessor, raw)
 
 
+def unsplit_data(modality: Modality) -> pd.DataFrame:
+    """The modality's data before its sign split: one column per feature, signs kept.
+
+    Patient distances and per-feature tests need each feature once; the split (positive
+    part, negative part) is only for the non-negative factorisation. The fitted steps before
+    the split are replayed on `raw`, so nothing is fitted twice. Without a split (or without
+    a preprocessor) this is `data` itself.
+    """
+    fitted = modality.preprocessor
+    if fitted is None or modality.raw is None or not fitted.steps_ or fitted.steps_[-1]["step"] != "split_signs":
+        return modality.data
+    state, arrays = fitted.to_state()
+    before = fitted.output_sources_[: fitted.output_sources_.size // 2]
+    state = {**state, "params": {**state["params"], "non_negative": "none"}, "steps": state["steps"][:-1]}
+    arrays = {**arrays, "output_features": before, "output_sources": before}
+    return Preprocessor.from_state(state, arrays).transform(modality.raw, source=modality.label)
+
+
 class Cohort:
     """The clinical table and the modalities, aligned on patient identifiers.
 
     Patients of the cohort are the clinical IDs that appear in at least one modality, in
     the clinical table's order. Identifiers are stripped of surrounding whitespace and
     matched exactly: a modality patient absent from the clinical table, or differing from
-    a clinical ID only in case, is left out and listed in `unmatched` (never merged).
+    a clinical ID only in case, is left out and listed in `unmatched` (never merged):
+    columns modality, patient_id, reason (NOT_IN_CLINICAL or CASE_ONLY) and clinical_id
+    (the clinical ID of a case-only twin, else empty).
     A modality sharing no patient, or fewer than `min_patients`, with the clinical table
     is an InputError.
     """
@@ -77,7 +99,7 @@ class Cohort:
             kept.append(shared_modality)
             unmatched.append(missing)
         self.modalities = kept
-        self.unmatched = pd.concat(unmatched, ignore_index=True) if unmatched else _unmatched_frame([], [], [])
+        self.unmatched = pd.concat(unmatched, ignore_index=True) if unmatched else _unmatched_frame([], [], [], [])
         measured = pd.Index([]).append([m.data.index for m in kept]) if kept else pd.Index([])
         self._patients = clinical_ids[clinical_ids.isin(measured)]
 
@@ -127,17 +149,20 @@ def _restrict(modality: Modality, clinical_ids: pd.Index, folded: pd.Series, min
     check_patient_count(int(shared.sum()), min_patients, modality.label)
     others = ids[~shared]
     twins = folded.reindex(others.str.casefold())
-    reasons = ("differs only in case from clinical '" + twins.astype(str) + "'").where(
-        twins.notna(), "not in the clinical table"
-    )
+    reasons = pd.Series(CASE_ONLY, index=twins.index).where(twins.notna(), NOT_IN_CLINICAL)
     restricted = data.set_axis(pd.Index(ids, name="patient_id"), axis=0).loc[shared]
     raw = modality.raw
     if raw is not None:
         raw = raw.set_axis(pd.Index(raw.index.astype(str).str.strip(), name="patient_id"), axis=0)
         raw = raw.loc[raw.index.isin(restricted.index)]
-    return replace(modality, data=restricted, raw=raw), _unmatched_frame([modality.name] * others.size, others, reasons)
+    return replace(modality, data=restricted, raw=raw), _unmatched_frame(
+        [modality.name] * others.size, others, reasons, twins.fillna("")
+    )
 
 
-def _unmatched_frame(names, ids, reasons) -> pd.DataFrame:
-    return pd.DataFrame({"modality": list(names), "patient_id": list(ids), "reason": list(reasons)})
+def _unmatched_frame(names, ids, reasons, twins) -> pd.DataFrame:
+    return pd.DataFrame(
+        {"modality": list(names), "patient_id": list(ids), "reason": list(reasons), "clinical_id": list(twins)},
+        dtype=object,
+    )
 

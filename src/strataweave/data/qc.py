@@ -18,7 +18,7 @@ def qc_summary(cohort: Cohort) -> pd.DataFrame:
     asked for); `features_used` the columns the model sees (twice the features after a
     sign split). `missing_fraction` is over the raw cells of the cohort's patients when
     the raw table is kept, otherwise over the prepared data. `patients_unmatched` counts
-    modality patients left out because the clinical table lacks them.
+    modality patients left out because the clinical table lacks them (see `cohort.unmatched`).
     """
     unmatched = cohort.unmatched["modality"].value_counts()
     rows = [_row(m, int(unmatched.get(m.name, 0))) for m in cohort.modalities]
@@ -33,10 +33,10 @@ def _row(modality: Modality, unmatched: int) -> dict:
         "patients": int(modality.data.shape[0]),
         "patients_unmatched": unmatched,
     }
-    steps = modality.preprocessor.steps_ if modality.preprocessor is not None else []
-    count = len(modality.preprocessor.input_features_) if steps else int(modality.data.shape[1])
+    fitted = modality.preprocessor
+    count = len(fitted.input_features_) if fitted is not None and fitted.steps_ else int(modality.data.shape[1])
     row["features_input"] = count
-    done = {step["step"]: step["features_out"] for step in steps}
+    done = dict(applied_filters(modality))
     for name in FILTER_STEPS:
         count = int(done.get(name, count))
         row[f"after_{name}"] = count
@@ -44,6 +44,21 @@ def _row(modality: Modality, unmatched: int) -> dict:
     cells = (modality.raw if modality.raw is not None else modality.data).to_numpy(dtype=np.float64)
     row["missing_fraction"] = float(np.isnan(cells).mean()) if cells.size else 0.0
     return row
+
+
+def applied_filters(modality: Modality) -> list[tuple[str, int]]:
+    """(filter step, features left after it) for each filter the modality's preprocessor ran, in order."""
+    steps = modality.preprocessor.steps_ if modality.preprocessor is not None else []
+    return [(step["step"], int(step["features_out"])) for step in steps if step["step"] in FILTER_STEPS]
+
+
+def unmatched_counts(unmatched: pd.DataFrame) -> pd.DataFrame:
+    """A `cohort.unmatched` table counted per modality and reason (columns modality, reason, patients).
+
+    The counts carry no patient identifier, so they may go where identifiers may not.
+    """
+    counts = unmatched.groupby(["modality", "reason"], sort=False).size()
+    return counts.rename("patients").reset_index()
 
 
 def presence_patterns(cohort: Cohort) -> pd.DataFrame:

@@ -6,29 +6,31 @@ from pathlib import Path
 
 import pandas as pd
 
+from strataweave.data.cohort import Cohort
+from strataweave.data.qc import presence_patterns, qc_summary
 from strataweave.workflow.config import load_workflow
 from strataweave.workflow.loading import check_columns, load_inputs
-from strataweave.workflow.preparing import prepare_cohort
+from strataweave.workflow.preparing import build_cohort
+
+#: Left-out patients listed one by one in the check report; beyond this, only the count.
+UNMATCHED_SHOWN = 20
 
 
-def _qc_table(prepared: dict) -> pd.DataFrame:
-    """One row per modality: patients, features in the file, after each filter, used; missing share."""
-    rows = []
-    for row in prepared["qc"]:
-        filters = {f"after_{step['step']}": step["features_after"] for step in row["filters"]}
-        rows.append(
-            {"modality": row["name"], "kind": row["kind"], "patients": row["patients"],
-             "not_in_clinical": prepared["dropped"][row["name"]], "features_in_file": row["features_in_file"],
-             **filters, "features_used": row["features_used"], "missing_fraction": round(row["missing_fraction"], 4)}
-        )
-    return pd.DataFrame(rows).set_index("modality")
+def _qc_table(cohort: Cohort) -> pd.DataFrame:
+    """One row per modality: patients, left out, features in the file, after each filter, used; missing share."""
+    table = qc_summary(cohort).drop(columns="source")
+    return table.assign(missing_fraction=table["missing_fraction"].round(4))
 
 
-def _presence_patterns(presence: pd.DataFrame) -> pd.DataFrame:
-    """Patients per combination of modalities, the most complete first."""
-    counts = presence.value_counts(sort=False).rename("patients").reset_index()
-    counts.insert(0, "modalities", counts[list(presence.columns)].sum(axis=1))
-    return counts.sort_values(["modalities", "patients"], ascending=False, kind="stable").reset_index(drop=True)
+def _unmatched_lines(unmatched: pd.DataFrame) -> list[str]:
+    """The modality patients left out of the analysis (not merged), with the reason of each."""
+    if unmatched.empty:
+        return []
+    lines = ["", f"modality patients left out of the analysis (not merged): {len(unmatched)}",
+             unmatched.head(UNMATCHED_SHOWN).to_string(index=False)]
+    if len(unmatched) > UNMATCHED_SHOWN:
+        lines.append(f"... and {len(unmatched) - UNMATCHED_SHOWN} more")
+    return lines
 
 
 def check_inputs(path: str | Path) -> str:
@@ -43,9 +45,10 @@ def check_inputs(path: str | Path) -> str:
         f"{len(flow.modalities)} modalities, {survival}, subtype counts {list(flow.subtypes.counts)}"
     ]
     if flow.modalities:
-        prepared = prepare_cohort(flow, loaded)
+        cohort = build_cohort(flow, loaded)
         lines += [
-            f"patients in the analysis (clinical and at least one modality): {len(prepared['patients'])}",
-            "", _qc_table(prepared).to_string(), "", _presence_patterns(prepared["presence"]).to_string(index=False),
+            f"patients in the analysis (clinical and at least one modality): {len(cohort.patients)}",
+            "", _qc_table(cohort).to_string(), "", presence_patterns(cohort).to_string(index=False),
+            *_unmatched_lines(cohort.unmatched),
         ]
     return "\n".join(lines)

@@ -5,6 +5,7 @@ from __future__ import annotations
 import dataclasses
 
 from strataweave.caution import CAUTION
+from strataweave.data.qc import unmatched_counts
 from strataweave.evaluate.result import plain
 from strataweave.workflow.config import Workflow
 from strataweave.workflow.grouping import ReportedGrouping
@@ -27,14 +28,22 @@ def parameters(flow: Workflow) -> dict:
     )
 
 
-def _cohort(grouping: ReportedGrouping, prepared: dict | None) -> dict:
-    """Patients and modalities as analysed; patients of a matrix absent from the clinical table are counted."""
+def _cohort(grouping: ReportedGrouping, prepared: dict | None, show_patient_ids: bool) -> dict:
+    """Patients and modalities as analysed; patients of a matrix absent from the clinical table are counted.
+
+    `unmatched` counts the left-out modality patients per modality and reason (a case-only
+    twin of a clinical ID is reported, never merged); their IDs are listed only when the
+    workflow allows patient IDs in the report.
+    """
     section: dict = {"patients": len(grouping.patients), "modalities": []}
     if prepared is not None:
         measured = prepared["presence"].loc[grouping.patients]
         for row in prepared["qc"]:
             section["modalities"].append({**row, "patients": int(measured[row["name"]].sum())})
         section["left_out_not_in_clinical"] = prepared["dropped"]
+        section["unmatched"] = unmatched_counts(prepared["unmatched"]).to_dict("records")
+        if show_patient_ids:
+            section["unmatched_patients"] = prepared["unmatched"].to_dict("records")
     return section
 
 
@@ -68,7 +77,7 @@ def build_results(
         "show_patient_ids": flow.report.show_patient_ids,
         "formats": list(flow.report.formats),
     }
-    results["cohort"] = _cohort(grouping, prepared)
+    results["cohort"] = _cohort(grouping, prepared, flow.report.show_patient_ids)
     if "graphs" in stage_results:
         results["graph"] = stage_results["graphs"]["summary"]
     if groups_given:

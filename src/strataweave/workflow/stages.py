@@ -20,7 +20,7 @@ from strataweave.workflow.graphing import build_graph
 from strataweave.workflow.grouping import analysis_patients, given_grouping
 from strataweave.workflow.loading import load_inputs
 from strataweave.workflow.pipeline import Stage
-from strataweave.workflow.preparing import prepare_cohort
+from strataweave.workflow.preparing import RESULT_LAYOUT, prepare_cohort
 from strataweave.workflow.progress import Feedback
 from strataweave.workflow.sweeping import (
     final_fit,
@@ -44,7 +44,10 @@ def _load_stage(flow: Workflow, hashes: dict[str, str]) -> Stage:
 
 
 def _prepare_stage(flow: Workflow) -> Stage:
-    parameters = {"modalities": [{"name": m.name, **m.preprocessing()} for m in flow.modalities]}
+    parameters = {
+        "layout": RESULT_LAYOUT,
+        "modalities": [{"name": m.name, **m.preprocessing()} for m in flow.modalities],
+    }
     return Stage("prepare", ("load",), parameters, lambda inputs: prepare_cohort(flow, inputs["load"]))
 
 
