@@ -15,6 +15,7 @@ from strataweave.data.imputation import IMPUTERS
 from strataweave.data.readers import ORIENTATIONS
 from strataweave.data.scaling import NON_NEGATIVITY, SCALINGS
 from strataweave.data.validation import KINDS
+from strataweave.subtypes.settings import SweepSettings
 from strataweave.workflow import rules
 
 SAFE_NAME = r"[A-Za-z0-9][A-Za-z0-9_.-]*"
@@ -61,7 +62,10 @@ class ModalitySettings:
     impute: str = key(rules.choice(*IMPUTERS), "knn")
     impute_neighbours: int = key(rules.integer(1), 10)
     scale: str = key(rules.choice(*SCALINGS), "zscore")
-    non_negative: str = key(rules.choice(*NON_NEGATIVITY), "shift", doc="how the NMF gets non-negative data")
+    non_negative: str = key(
+        rules.choice(*NON_NEGATIVITY), "split",
+        doc="how the NMF gets non-negative data; split keeps the sign of scaled data without an offset",
+    )
 
     def preprocessing(self) -> dict:
         """Keyword arguments of `Preprocessor` (all but name, path, orientation and weight)."""
@@ -103,23 +107,23 @@ class SubtypeSettings:
         rules.either(rules.choice("recommended"), rules.integer(2), "'recommended' or an integer >= 2"),
         "recommended",
     )
-    min_size: int = key(rules.integer(1), 10, doc="never recommend a count with a smaller subtype")
+    min_size: int = key(rules.integer(1), SweepSettings.min_size, doc="never recommend a count with a smaller subtype")
     pac_window: tuple[float, ...] = key(
-        rules.list_of(rules.number(0, 1), "two numbers between 0 and 1, lower first"), (0.1, 0.9)
+        rules.list_of(rules.number(0, 1), "two numbers between 0 and 1, lower first"), SweepSettings.pac_window
     )
-    pac_tolerance: float = key(rules.number(minimum=0), 0.02, doc="PAC differences below this are ties")
-    core_threshold: float = key(rules.number(0, 1), 0.8, doc="mean consensus with the own subtype")
+    pac_tolerance: float = key(rules.number(minimum=0), SweepSettings.pac_tolerance, doc="PAC differences below this are ties")
+    core_threshold: float = key(rules.number(0, 1), SweepSettings.core_threshold, doc="mean consensus with the own subtype")
 
 
 @dataclass(frozen=True)
 class ResamplingSettings:
     """[resampling]: the consensus resamples and where they run."""
 
-    resamples: int = key(rules.integer(2), 30)
-    fraction: float = key(rules.number(maximum=1, above=0), 0.8, doc="share of patients per resample")
-    feature_fraction: float = key(rules.number(maximum=1, above=0), 1.0, doc="share of features per resample")
-    restarts: int = key(rules.integer(1), 1, doc="NMF restarts per resample")
-    warm_start: bool = key(rules.flag(), False, doc="start resamples from the full-data factors")
+    resamples: int = key(rules.integer(2), SweepSettings.n_resamples)
+    fraction: float = key(rules.number(maximum=1, above=0), SweepSettings.fraction, doc="share of patients per resample")
+    feature_fraction: float = key(rules.number(maximum=1, above=0), SweepSettings.feature_fraction, doc="share of features per resample")
+    restarts: int = key(rules.integer(1), SweepSettings.resample_restarts, doc="NMF restarts per resample")
+    warm_start: bool = key(rules.flag(), SweepSettings.warm_start, doc="start resamples from the full-data factors")
     backend: str = key(rules.choice("serial", "processes", "dask"), "serial")
     jobs: int = key(rules.integer(1), 1)
     scheduler: str | None = key(rules.text(), None, doc="Dask scheduler address (backend = dask)")
