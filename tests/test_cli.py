@@ -10,7 +10,7 @@ import pytest
 sys.path.insert(0, str(Path(__file__).parent / "workflow"))
 from workflow_files import MINIMAL, write_tiny_files  # noqa: E402
 
-from strataweave.cli import EXAMPLES, main  # noqa: E402
+from strataweave.cli import EXAMPLES, build_parser, main  # noqa: E402
 
 MALFORMED = [
     # (what the file says, the key the error must name)
@@ -72,6 +72,20 @@ def test_bad_arguments_exit_2_with_one_line(capsys, argv) -> None:
     assert main(argv) == 2
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and "error" in err[0]
+
+
+@pytest.mark.parametrize(
+    ("argv", "quiet", "verbose"),
+    [
+        (["-q", "check", "x.toml"], True, False),
+        (["check", "x.toml", "--quiet"], True, False),
+        (["-v", "check", "x.toml"], False, True),
+        (["check", "x.toml"], False, False),
+    ],
+)
+def test_loudness_holds_before_or_after_the_verb(argv, quiet, verbose) -> None:
+    args = build_parser().parse_args(argv)
+    assert (args.quiet, args.verbose) == (quiet, verbose)
 
 
 def test_missing_workflow_file_is_bad_input(tmp_path, capsys) -> None:

@@ -61,18 +61,25 @@ def _modality_file(text: str) -> tuple[str, str]:
     return name.strip(), path.strip()
 
 
+def _loudness_options(default: object) -> argparse.ArgumentParser:
+    """-q / -v as a parent parser; the verbs' copy defaults to SUPPRESS so `-q run` stays quiet."""
+    options = argparse.ArgumentParser(add_help=False)
+    loudness = options.add_mutually_exclusive_group()
+    loudness.add_argument("-q", "--quiet", action="store_true", default=default, help="no progress bars or messages")
+    loudness.add_argument(
+        "-v", "--verbose", action="store_true", default=default, help="one line per stage; tracebacks on faults"
+    )
+    return options
+
+
 def build_parser() -> argparse.ArgumentParser:
     """The argument parser of every verb (each --help ends with an example)."""
-    shared = argparse.ArgumentParser(add_help=False)
-    loudness = shared.add_mutually_exclusive_group()
-    loudness.add_argument("-q", "--quiet", action="store_true", help="no progress bars or messages")
-    loudness.add_argument("-v", "--verbose", action="store_true", help="one line per stage; tracebacks on faults")
-
+    shared = _loudness_options(argparse.SUPPRESS)
     parser = _Parser(
         prog="strataweave",
         description="Multi-omics patient stratification workbench (research use only).",
         epilog=f"example: {EXAMPLES['run']}",
-        parents=[shared],
+        parents=[_loudness_options(False)],
     )
     parser.add_argument("--version", action="version", version=f"strataweave {__version__}")
     verbs = parser.add_subparsers(dest="verb", required=True, metavar="VERB", parser_class=_Parser)
