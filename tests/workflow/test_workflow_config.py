@@ -101,3 +101,24 @@ def test_annotated_workflow_shows_every_key() -> None:
         assert f"[{section}]" in text
         for spec in dataclasses.fields(cls):
             assert f"\n{spec.name} = " in text or f"\n# {spec.name} = " in text, f"{section}.{spec.name}"
+
+
+def test_workflow_defaults_are_the_numeric_layers_defaults() -> None:
+    import inspect
+
+    from strataweave.evaluate import associate_clinical, evaluate_survival
+    from strataweave.factorize import JointNMF
+    from strataweave.graph import fuse_modalities
+    from strataweave.workflow.settings import EvaluationSettings, FactorizationSettings, GraphSettings
+
+    pairs = [
+        (GraphSettings, "neighbours", fuse_modalities, "n_neighbours"),
+        (FactorizationSettings, "graph_weight", JointNMF, "graph_weight"),
+        (FactorizationSettings, "tolerance", JointNMF, "tol"),
+        (FactorizationSettings, "max_iter", JointNMF, "max_iter"),
+        (EvaluationSettings, "permutations", evaluate_survival, "n_permutations"),
+        (EvaluationSettings, "monte_carlo", associate_clinical, "n_monte_carlo"),
+    ]
+    for section, key, function, parameter in pairs:
+        workflow_default = {f.name: f.default for f in dataclasses.fields(section)}[key]
+        assert workflow_default == inspect.signature(function).parameters[parameter].default, key

@@ -7,18 +7,28 @@ definitions, so a key exists in exactly one place.
 
 from __future__ import annotations
 
+import inspect
 from dataclasses import dataclass, field, fields
 from pathlib import Path
 
+from strataweave.data import Preprocessor
 from strataweave.data.filters import RANKINGS
 from strataweave.data.imputation import IMPUTERS
 from strataweave.data.readers import ORIENTATIONS
 from strataweave.data.scaling import NON_NEGATIVITY, SCALINGS
 from strataweave.data.validation import KINDS
+from strataweave.evaluate import associate_clinical, enrich_markers, evaluate_survival, find_markers
+from strataweave.factorize import JointNMF
+from strataweave.graph import fuse_modalities
 from strataweave.subtypes.settings import SweepSettings
 from strataweave.workflow import rules
 
 SAFE_NAME = r"[A-Za-z0-9][A-Za-z0-9_.-]*"
+
+
+def default_of(function, parameter: str) -> object:
+    """The default of a numeric layer's parameter, so the workflow and the layer never disagree."""
+    return inspect.signature(function).parameters[parameter].default
 
 
 def key(rule: rules.Rule, *default: object, doc: str = "") -> object:
@@ -40,6 +50,9 @@ class CohortSettings:
     time_unit: str | None = key(rules.text(), None, doc="unit of the survival time, for axis labels")
 
 
+PREPROCESSING = {name: default_of(Preprocessor, name) for name in inspect.signature(Preprocessor).parameters}
+
+
 @dataclass(frozen=True)
 class ModalitySettings:
     """[[modality]]: one omics layer, how to read it, how to normalise and filter it, its weight.
@@ -52,19 +65,24 @@ class ModalitySettings:
     kind: str = key(rules.choice(*KINDS))
     orientation: str | None = key(rules.choice(*ORIENTATIONS), None, doc="omitted = detect")
     weight: float = key(rules.number(above=0), 1.0, doc="relative weight in the factorisation")
-    prior_count: float = key(rules.number(above=0), 0.5, doc="counts: added before log2 CPM")
-    beta_to_m: bool = key(rules.flag(), True, doc="beta: use M-values")
-    quantile_normalise: bool = key(rules.flag(), False)
-    max_missing_fraction: float = key(rules.number(0, 1), 0.2, doc="drop features missing in more patients")
-    min_variance: float = key(rules.number(minimum=0), 1e-8)
-    top_features: int = key(rules.integer(1), 2000, doc="keep this many features, ranked by rank_by")
-    rank_by: str = key(rules.choice(*RANKINGS), "variance")
-    impute: str = key(rules.choice(*IMPUTERS), "knn")
-    impute_neighbours: int = key(rules.integer(1), 10)
-    scale: str = key(rules.choice(*SCALINGS), "zscore")
+    prior_count: float = key(rules.number(above=0), PREPROCESSING["prior_count"], doc="counts: added before log2 CPM")
+    beta_to_m: bool = key(rules.flag(), PREPROCESSING["beta_to_m"], doc="beta: use M-values")
+    quantile_normalise: bool = key(rules.flag(), PREPROCESSING["quantile_normalise"])
+    max_missing_fraction: float = key(
+        rules.number(0, 1), PREPROCESSING["max_missing_fraction"], doc="drop features missing in more patients"
+    )
+    min_variance: float = key(rules.number(minimum=0), PREPROCESSING["min_variance"])
+    top_features: int = key(
+        rules.integer(1), 2000, doc="keep this many features, ranked by rank_by (the workflow caps what NMF sees)"
+    )
+    rank_by: str = key(rules.choice(*RANKINGS), PREPROCESSING["rank_by"])
+    impute: str = key(rules.choice(*IMPUTERS), PREPROCESSING["impute"])
+    impute_neighbours: int = key(rules.integer(1), PREPROCESSING["impute_neighbours"])
+    scale: str = key(rules.choice(*SCALINGS), PREPROCESSING["scale"])
     non_negative: str = key(
         rules.choice(*NON_NEGATIVITY), "split",
-        doc="how the NMF gets non-negative data; split keeps the sign of scaled data without an offset",
+        doc="how the NMF gets non-negative data; split keeps the sign of scaled data without an offset "
+        "(the workflow always needs one, unlike Preprocessor's default 'none')",
     )
 
     def preprocessing(self) -> dict:
@@ -77,10 +95,12 @@ class ModalitySettings:
 class GraphSettings:
     """[graph]: per-modality patient-similarity graphs and the rule that fuses them."""
 
-    neighbours: int = key(rules.integer(2), 20)
-    metric: str = key(rules.choice("euclidean", "correlation", "cosine"), "euclidean")
-    kernel: str = key(rules.choice("scaled_exponential", "gaussian"), "scaled_exponential")
-    fusion: str = key(rules.choice("intersection", "quorum", "average", "diffusion"), "intersection")
+    neighbours: int = key(rules.integer(2), default_of(fuse_modalities, "n_neighbours"))
+    metric: str = key(rules.choice("euclidean", "correlation", "cosine"), default_of(fuse_modalities, "metric"))
+    kernel: str = key(rules.choice("scaled_exponential", "gaussian"), default_of(fuse_modalities, "kernel"))
+    fusion: str = key(
+        rules.choice("intersection", "quorum", "average", "diffusion"), default_of(fuse_modalities, "rule")
+    )
     quorum: int | None = key(rules.integer(1), None, doc="modalities that must agree (fusion = quorum)")
 
 
@@ -88,11 +108,11 @@ class GraphSettings:
 class FactorizationSettings:
     """[factorization]: the graph-regularised joint NMF."""
 
-    graph_weight: float = key(rules.number(minimum=0), 0.3)
-    restarts: int = key(rules.integer(1), 3)
-    max_iter: int = key(rules.integer(1), 300)
-    tolerance: float = key(rules.number(above=0), 1e-4)
-    init: str = key(rules.choice("nndsvda", "nndsvd", "random"), "nndsvda")
+    graph_weight: float = key(rules.number(minimum=0), default_of(JointNMF, "graph_weight"))
+    restarts: int = key(rules.integer(1), 3, doc="full-data fits per count; the lowest objective wins")
+    max_iter: int = key(rules.integer(1), default_of(JointNMF, "max_iter"))
+    tolerance: float = key(rules.number(above=0), default_of(JointNMF, "tol"))
+    init: str = key(rules.choice("nndsvda", "nndsvd", "random"), default_of(JointNMF, "init"))
 
 
 @dataclass(frozen=True)
@@ -141,19 +161,21 @@ class EvaluationSettings:
     categorical_columns: tuple[str, ...] = key(
         rules.list_of(rules.text(), "a list of column names"), (), doc="numeric columns to treat as categories"
     )
-    monte_carlo: int = key(rules.integer(100), 2000, doc="draws for exact p-values of sparse tables")
+    monte_carlo: int = key(
+        rules.integer(100), default_of(associate_clinical, "n_monte_carlo"), doc="draws for exact p-values of sparse tables"
+    )
     rmst_horizon: float | None = key(rules.number(above=0), None)
-    permutations: int = key(rules.integer(0), 2000)
-    min_group_size: int = key(rules.integer(1), 5)
-    marker_test: str = key(rules.choice("mann_whitney", "welch"), "mann_whitney")
-    marker_fdr: float = key(rules.number(maximum=1, above=0), 0.05)
-    markers_per_subtype: int = key(rules.integer(1), 20)
+    permutations: int = key(rules.integer(0), default_of(evaluate_survival, "n_permutations"))
+    min_group_size: int = key(rules.integer(1), default_of(evaluate_survival, "min_group_size"))
+    marker_test: str = key(rules.choice("mann_whitney", "welch"), default_of(find_markers, "test"))
+    marker_fdr: float = key(rules.number(maximum=1, above=0), default_of(find_markers, "fdr"))
+    markers_per_subtype: int = key(rules.integer(1), default_of(find_markers, "top_n"))
     gene_sets: Path | None = key(rules.existing_file(), None)
     gene_set_format: str = key(rules.choice("lines", "table"), "lines", doc="set, description, members / set, gene")
     gene_set_modality: str | None = key(rules.text(), None, doc="modality whose markers are tested; omitted = first")
-    sets_per_subtype: int = key(rules.integer(1), 10)
-    min_set_size: int = key(rules.integer(1), 5)
-    max_set_size: int = key(rules.integer(1), 500)
+    sets_per_subtype: int = key(rules.integer(1), default_of(enrich_markers, "top_n"))
+    min_set_size: int = key(rules.integer(1), default_of(enrich_markers, "min_size"))
+    max_set_size: int = key(rules.integer(1), default_of(enrich_markers, "max_size"))
 
 
 @dataclass(frozen=True)
