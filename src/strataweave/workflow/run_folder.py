@@ -58,10 +58,6 @@ class RunFolder:
             else:
                 path.unlink(missing_ok=True)
 
-    def is_finished(self) -> bool:
-        manifest = self.read_manifest()
-        return manifest is not None and manifest.get("status") == "finished"
-
 
 def prepare_run_folder(path: str | Path, overwrite: bool = False) -> RunFolder:
     """A run folder to write into: new, empty, or an unfinished (or, if asked, finished) run."""
