@@ -4,7 +4,6 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-import numpy as np
 import pandas as pd
 from lifelines import CoxPHFitter
 from lifelines.exceptions import ConvergenceError
