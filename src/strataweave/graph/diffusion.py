@@ -34,7 +34,7 @@ def diffuse(left, right, values, presence: np.ndarray, n_neighbours: int, iterat
     shared = presence[rows] & presence[cols]
     kernel[~shared] = 0.0
     kernel = np.nan_to_num(kernel)
-    status = [_transition(rows, cols, diagonal, kernel[:, v], n) for v in range(kernel.shape[1])]
+    status = [_transition(rows, diagonal, kernel[:, v], n) for v in range(kernel.shape[1])]
     local = [_local_matrix(rows, cols, diagonal, kernel[:, v], n, n_neighbours) for v in range(kernel.shape[1])]
     weight = shared.astype(np.float64)
     others_count = weight.sum(axis=1, keepdims=True) - weight
@@ -54,7 +54,7 @@ def diffuse(left, right, values, presence: np.ndarray, n_neighbours: int, iterat
     return symmetric / peak if peak > 0 else symmetric
 
 
-def _transition(rows, cols, diagonal, kernel, n) -> np.ndarray:
+def _transition(rows, diagonal, kernel, n) -> np.ndarray:
     """P_v on the support: off-diagonal W / (2 * row sum), diagonal 1/2 where the patient is present."""
     off = np.where(diagonal, 0.0, kernel)
     row_sums = np.bincount(rows, weights=off, minlength=n)
