@@ -126,6 +126,22 @@ def test_check_names_a_clinical_column_that_is_absent(tmp_path, capsys) -> None:
     assert "'cohort.time_column'" in capsys.readouterr().err
 
 
+@pytest.mark.parametrize(("cell", "column"), [("soon", "os_months"), ("-3", "os_months"), ("2", "os_event")])
+def test_check_refuses_a_survival_cell_before_any_work(tmp_path, capsys, cell, column) -> None:
+    write_tiny_files(tmp_path)
+    clinical = tmp_path / "clinical.tsv"
+    lines = clinical.read_text().splitlines()
+    header = lines[0].split("\t")
+    row = lines[3].split("\t")
+    row[header.index(column)] = cell
+    clinical.write_text("\n".join([*lines[:3], "\t".join(row), *lines[4:]]) + "\n")
+    text = MINIMAL.replace('clinical = "clinical.tsv"', 'clinical = "clinical.tsv"\ntime_column = "os_months"\nevent_column = "os_event"')
+    (tmp_path / "flow.toml").write_text(text)
+    assert main(["check", str(tmp_path / "flow.toml")]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "clinical.tsv" in err[0] and "'P2'" in err[0] and repr(column) in err[0]
+
+
 def test_run_refuses_a_folder_that_is_not_a_run_folder(tmp_path, capsys) -> None:
     write_tiny_files(tmp_path)
     (tmp_path / "out").mkdir()

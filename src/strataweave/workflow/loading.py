@@ -6,11 +6,13 @@ import pandas as pd
 
 from strataweave.data.readers import read_clinical, read_matrix
 from strataweave.errors import InputError
+from strataweave.evaluate.outcome import read_outcome
 from strataweave.workflow.config import Workflow
 
 
 def check_columns(flow: Workflow, clinical: pd.DataFrame) -> None:
-    """Every clinical column the workflow names must be in the clinical table."""
+    """Every clinical column the workflow names must be in the clinical table, and the survival
+    columns must hold times and 0/1 events, so a bad cell stops the run before the sweep."""
     named = {
         "cohort.time_column": [flow.cohort.time_column],
         "cohort.event_column": [flow.cohort.event_column],
@@ -26,6 +28,11 @@ def check_columns(flow: Workflow, clinical: pd.DataFrame) -> None:
                     f"{flow.source.name}: key '{key}': found column {column!r}, expected a column of "
                     f"{flow.cohort.clinical.name} ({', '.join(map(str, clinical.columns[:8]))})"
                 )
+    if flow.has_survival:
+        try:
+            read_outcome(clinical, flow.cohort.time_column, flow.cohort.event_column)
+        except InputError as problem:
+            raise InputError(f"{flow.cohort.clinical}: {problem}") from None
 
 
 def load_inputs(flow: Workflow) -> dict:
