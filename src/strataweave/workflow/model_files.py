@@ -23,6 +23,7 @@ from strataweave.workflow.config import Workflow
 MODEL_FORMAT = "strataweave.model/1"
 MODEL_JSON = "model.json"
 MODEL_ARRAYS = "arrays.npz"
+MODALITY_KEYS = ("name", "kind", "orientation", "weight", "preprocessor")
 
 
 def _prefixed(prefix: str, arrays: dict[str, np.ndarray]) -> dict[str, np.ndarray]:
@@ -70,9 +71,22 @@ class SavedModel:
                 arrays = {name: archive[name] for name in archive.files}
         except (OSError, ValueError) as problem:
             raise InputError(f"{folder}: no readable saved model ({problem}), expected model.json and arrays.npz") from None
-        if description.get("format") != MODEL_FORMAT:
-            raise InputError(f"{folder / MODEL_JSON}: key 'format': found {description.get('format')!r}, expected {MODEL_FORMAT!r}")
+        found = description.get("format") if isinstance(description, dict) else description
+        if found != MODEL_FORMAT:
+            raise InputError(f"{folder / MODEL_JSON}: key 'format': found {found!r}, expected {MODEL_FORMAT!r}")
+        try:
+            self._read(description, arrays)
+        except (KeyError, TypeError) as problem:  # a hand-edited or truncated model, not a fault of the program
+            raise InputError(
+                f"{folder}: saved model lacks or garbles {problem}, expected model.json and arrays.npz as a run wrote them"
+            ) from None
+
+    def _read(self, description: dict, arrays: dict[str, np.ndarray]) -> None:
         self.modalities = description["modalities"]
+        for modality in self.modalities:
+            missing = [name for name in MODALITY_KEYS if name not in modality]
+            if missing:
+                raise KeyError(missing[0])
         self.names = list(description["subtypes"])
         self.far_threshold = float(description["far_threshold"])
         self.centres = arrays["centres"]
