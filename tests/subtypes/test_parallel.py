@@ -1,5 +1,8 @@
 """The parallel runner: same results on every backend, progress, and a clear error for a dead scheduler."""
 
+import os
+import subprocess
+import sys
 import time
 
 import numpy as np
@@ -8,6 +11,7 @@ from threadpoolctl import threadpool_info
 
 from strataweave import InputError
 from strataweave.seeding import child_seeds
+from strataweave.subtypes import parallel
 from strataweave.subtypes.parallel import ParallelSettings, run_tasks
 
 
@@ -71,3 +75,20 @@ def test_scheduler_without_workers_is_an_input_error_within_the_timeout(shared):
         with pytest.raises(InputError, match="no worker attached"):
             run_tasks(seeded_projection_labels, shared, [1], settings)
         assert time.monotonic() - started < 10
+
+
+def test_worker_running_other_code_than_the_main_process_is_refused(shared, monkeypatch):
+    # A worker process started after the package was edited computes other numbers for the
+    # same seed; here the main process pretends to have read other source than the workers.
+    monkeypatch.setattr(parallel, "CODE_FINGERPRINT", "0" * 64)
+    with pytest.raises(InputError, match="workers: found a worker running other strataweave source"):
+        run_tasks(seeded_projection_labels, shared, child_seeds(3, 2), ParallelSettings("processes", n_jobs=2))
+
+
+def test_code_fingerprint_is_the_same_in_every_fresh_process():
+    # Two independent interpreters reading the same install must agree, or every worker
+    # would be refused: nothing process-specific (paths, times, thread counts) goes in.
+    script = "from strataweave.subtypes.parallel import CODE_FINGERPRINT; print(CODE_FINGERPRINT)"
+    single_threaded = {**os.environ, "OPENBLAS_NUM_THREADS": "1", "OMP_NUM_THREADS": "1"}
+    other = subprocess.run([sys.executable, "-c", script], capture_output=True, text=True, check=True, env=single_threaded)
+    assert other.stdout.strip() == parallel.CODE_FINGERPRINT

@@ -5,6 +5,11 @@ processes then do not oversubscribe the cores, and floating-point sums happen in
 order everywhere, so a task given the same seed returns the same result on every backend.
 The limit is set in this process for the whole run as well: serial tasks and the threads of
 an in-process Dask cluster then share one setting instead of racing to set and restore it.
+
+Every task also checks that its process runs the same task source (factorize, subtypes,
+seeding) and numeric libraries as the main process: a worker started after that source was
+edited (an editable install), or a remote worker with another install, would silently
+compute other numbers for the same seed.
 """
 
 from __future__ import annotations
@@ -12,11 +17,16 @@ from __future__ import annotations
 from collections.abc import Callable, Iterator, Sequence
 from contextlib import ExitStack, contextmanager
 from dataclasses import dataclass
+from hashlib import sha256
+from pathlib import Path
 from typing import Any
 
 import joblib
+import numpy as np
+import scipy
 import scipy.linalg  # noqa: F401  (loads scipy's BLAS now, so the thread limit reaches it too)
-from threadpoolctl import threadpool_limits
+import sklearn
+from threadpoolctl import threadpool_info, threadpool_limits
 
 from strataweave.errors import InputError
 
@@ -49,7 +59,32 @@ class ParallelSettings:
             raise InputError(f"connect_timeout: found {self.connect_timeout}; expected seconds > 0")
 
 
-def _single_threaded(function: Callable, shared: Any, params: Any) -> Any:
+TASK_SOURCES = ("factorize/**/*.py", "subtypes/**/*.py", "seeding.py")  # the package code tasks run
+
+
+def _code_fingerprint() -> str:
+    """Digest of the task source files and of the numeric libraries (versions, BLAS kernels)."""
+    digest = sha256()
+    package = Path(__file__).resolve().parents[1]
+    for path in sorted(path for pattern in TASK_SOURCES for path in package.glob(pattern)):
+        digest.update(path.relative_to(package).as_posix().encode())
+        digest.update(path.read_bytes())
+    blas = sorted(f"{pool['internal_api']} {pool['version']} {pool.get('architecture')}"
+                  for pool in threadpool_info() if pool["user_api"] == "blas")
+    digest.update(" ".join([np.__version__, scipy.__version__, sklearn.__version__, *blas]).encode())
+    return digest.hexdigest()
+
+
+CODE_FINGERPRINT = _code_fingerprint()  # taken at import, close to when this process read the package
+
+
+def _single_threaded(function: Callable, shared: Any, params: Any, main_fingerprint: str) -> Any:
+    if CODE_FINGERPRINT != main_fingerprint:
+        raise InputError(
+            f"workers: found a worker running other strataweave source or numeric libraries "
+            f"(fingerprint {CODE_FINGERPRINT[:12]}) than the main process ({main_fingerprint[:12]}); "
+            "expected the same code everywhere (restart after editing the package, or install the same versions on the workers)"
+        )
     with threadpool_limits(limits=1):
         return function(shared, params)
 
@@ -136,7 +171,9 @@ class TaskRunner:
         """
         if self._stack is None:
             raise RuntimeError("TaskRunner.map called outside its 'with' block")
-        calls = (joblib.delayed(_single_threaded)(function, shared, params) for params in task_params)
+        calls = (
+            joblib.delayed(_single_threaded)(function, shared, params, CODE_FINGERPRINT) for params in task_params
+        )
         if self.settings.backend == "dask":
             with joblib.parallel_config(backend="dask", scatter=[shared]):
                 return _collect(joblib.Parallel(return_as="generator")(calls), progress, done_before)

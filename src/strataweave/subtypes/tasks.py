@@ -76,16 +76,12 @@ def fit_full_data(shared: SweepInputs, task: tuple[int, int]) -> FullFit:
     """Joint NMF on all patients at one count, plus the two baselines at that count."""
     count, seed = task
     fit_seed, spectral_seed, kmeans_seed = child_seeds(seed, 3)
-    # Fresh copies: arrays shipped to a worker (memory-mapped or deserialised) may sit at any
-    # memory alignment, and numpy's vectorised sums can round differently with it.
-    views = {name: np.array(values) for name, values in shared.views.items()}
-    affinity = shared.affinity.copy()
     model, labels, confidence, scores, unconverged = _fit_and_label(
-        views, affinity, count, shared.factorization, fit_seed
+        shared.views, shared.affinity, count, shared.factorization, fit_seed
     )
     baselines = {
-        "spectral": spectral_labels(affinity, count, spectral_seed),
-        "kmeans": kmeans_labels(np.array(shared.concatenated), count, kmeans_seed),
+        "spectral": spectral_labels(shared.affinity, count, spectral_seed),
+        "kmeans": kmeans_labels(shared.concatenated, count, kmeans_seed),
     }
     return FullFit(count, model, labels, confidence, scores, baselines, unconverged)
 
