@@ -32,6 +32,9 @@ PATIENCE = 3  # converged after this many consecutive iterations with relative d
 
 @dataclass
 class FitResult:
+    """One fit's outcome: patient factor, loadings per modality, objective per iteration,
+    squared error per modality, and whether the tolerance (not max_iter) ended it."""
+
     W: np.ndarray
     loadings: list[np.ndarray]
     objective: list[float]

@@ -60,6 +60,7 @@ class StageCache:
             return False
 
     def save(self, stage: str, key: str, result: object) -> None:
+        """Store a stage result under its key: the JSON tree last, so a half-written entry never counts."""
         tree, arrays = encode(result)
         json_path, npz_path = self._paths(stage, key)
         buffer = io.BytesIO()
@@ -69,6 +70,7 @@ class StageCache:
         atomic_write_text(json_path, json.dumps(record, allow_nan=True))
 
     def load(self, stage: str, key: str) -> object:
+        """The stage result stored under `key` (pandas, sparse and numpy objects rebuilt without pickle)."""
         json_path, npz_path = self._paths(stage, key)
         record = json.loads(json_path.read_text(encoding="utf-8"))
         with np.load(npz_path, allow_pickle=False) as archive:
