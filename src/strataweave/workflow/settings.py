@@ -109,7 +109,10 @@ class FactorizationSettings:
     """[factorization]: the graph-regularised joint NMF."""
 
     graph_weight: float = key(rules.number(minimum=0), default_of(JointNMF, "graph_weight"))
-    restarts: int = key(rules.integer(1), 3, doc="full-data fits per count; the lowest objective wins")
+    restarts: int = key(
+        rules.integer(1), SweepSettings.resample_restarts,
+        doc="full-data fits per count, the lowest objective wins; as many as each resample has",
+    )
     max_iter: int = key(rules.integer(1), default_of(JointNMF, "max_iter"))
     tolerance: float = key(rules.number(above=0), default_of(JointNMF, "tol"))
     init: str = key(rules.choice("nndsvda", "nndsvd", "random"), default_of(JointNMF, "init"))
