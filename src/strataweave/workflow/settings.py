@@ -18,8 +18,14 @@ from strataweave.data.readers import ORIENTATIONS
 from strataweave.data.scaling import NON_NEGATIVITY, SCALINGS
 from strataweave.data.validation import KINDS
 from strataweave.evaluate import associate_clinical, enrich_markers, evaluate_survival, find_markers
+from strataweave.evaluate.markers import TESTS
 from strataweave.factorize import JointNMF
+from strataweave.factorize.joint_nmf import INIT_METHODS
 from strataweave.graph import fuse_modalities
+from strataweave.graph.kernels import KERNELS
+from strataweave.graph.metrics import METRICS
+from strataweave.graph.rules import RULES
+from strataweave.subtypes.parallel import BACKENDS, ParallelSettings
 from strataweave.subtypes.settings import SweepSettings
 from strataweave.workflow import rules
 
@@ -96,11 +102,9 @@ class GraphSettings:
     """[graph]: per-modality patient-similarity graphs and the rule that fuses them."""
 
     neighbours: int = key(rules.integer(2), default_of(fuse_modalities, "n_neighbours"))
-    metric: str = key(rules.choice("euclidean", "correlation", "cosine"), default_of(fuse_modalities, "metric"))
-    kernel: str = key(rules.choice("scaled_exponential", "gaussian"), default_of(fuse_modalities, "kernel"))
-    fusion: str = key(
-        rules.choice("intersection", "quorum", "average", "diffusion"), default_of(fuse_modalities, "rule")
-    )
+    metric: str = key(rules.choice(*METRICS), default_of(fuse_modalities, "metric"))
+    kernel: str = key(rules.choice(*KERNELS), default_of(fuse_modalities, "kernel"))
+    fusion: str = key(rules.choice(*RULES), default_of(fuse_modalities, "rule"))
     quorum: int | None = key(rules.integer(1), None, doc="modalities that must agree (fusion = quorum)")
 
 
@@ -115,7 +119,7 @@ class FactorizationSettings:
     )
     max_iter: int = key(rules.integer(1), default_of(JointNMF, "max_iter"))
     tolerance: float = key(rules.number(above=0), default_of(JointNMF, "tol"))
-    init: str = key(rules.choice("nndsvda", "nndsvd", "random"), default_of(JointNMF, "init"))
+    init: str = key(rules.choice(*INIT_METHODS), default_of(JointNMF, "init"))
 
 
 @dataclass(frozen=True)
@@ -147,8 +151,8 @@ class ResamplingSettings:
     feature_fraction: float = key(rules.number(maximum=1, above=0), SweepSettings.feature_fraction, doc="share of features per resample")
     restarts: int = key(rules.integer(1), SweepSettings.resample_restarts, doc="NMF restarts per resample")
     warm_start: bool = key(rules.flag(), SweepSettings.warm_start, doc="start resamples from the full-data factors")
-    backend: str = key(rules.choice("serial", "processes", "dask"), "serial")
-    jobs: int = key(rules.integer(1), 1)
+    backend: str = key(rules.choice(*BACKENDS), ParallelSettings.backend)
+    jobs: int = key(rules.integer(1), ParallelSettings.n_jobs)
     scheduler: str | None = key(rules.text(), None, doc="Dask scheduler address (backend = dask)")
 
 
@@ -170,7 +174,7 @@ class EvaluationSettings:
     rmst_horizon: float | None = key(rules.number(above=0), None)
     permutations: int = key(rules.integer(0), default_of(evaluate_survival, "n_permutations"))
     min_group_size: int = key(rules.integer(1), default_of(evaluate_survival, "min_group_size"))
-    marker_test: str = key(rules.choice("mann_whitney", "welch"), default_of(find_markers, "test"))
+    marker_test: str = key(rules.choice(*TESTS), default_of(find_markers, "test"))
     marker_fdr: float = key(rules.number(maximum=1, above=0), default_of(find_markers, "fdr"))
     markers_per_subtype: int = key(rules.integer(1), default_of(find_markers, "top_n"))
     gene_sets: Path | None = key(rules.existing_file(), None)
