@@ -122,3 +122,8 @@ def test_workflow_defaults_are_the_numeric_layers_defaults() -> None:
     for section, key, function, parameter in pairs:
         workflow_default = {f.name: f.default for f in dataclasses.fields(section)}[key]
         assert workflow_default == inspect.signature(function).parameters[parameter].default, key
+
+
+def test_an_integer_bound_is_written_in_full(tiny_files: Path) -> None:
+    with pytest.raises(InputError, match=r"key 'seed': found -1, expected an integer >= 0 and <= 4294967295$"):
+        parse_workflow("seed = -1\n" + MINIMAL, tiny_files / "flow.toml")

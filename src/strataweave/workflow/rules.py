@@ -26,14 +26,19 @@ def _is_number(value: object) -> bool:
     return isinstance(value, (int, float)) and not isinstance(value, bool)
 
 
+def _bound(value: float) -> str:
+    """A bound as a reader expects it: integers in full (no 4.29497e+09), other numbers short."""
+    return str(value) if _is_integer(value) else f"{value:g}"
+
+
 def _bounds_text(minimum: float | None, maximum: float | None, above: float | None) -> str:
     parts = []
     if above is not None:
-        parts.append(f"> {above:g}")
+        parts.append(f"> {_bound(above)}")
     if minimum is not None:
-        parts.append(f">= {minimum:g}")
+        parts.append(f">= {_bound(minimum)}")
     if maximum is not None:
-        parts.append(f"<= {maximum:g}")
+        parts.append(f"<= {_bound(maximum)}")
     return (" " + " and ".join(parts)) if parts else ""
 
 
