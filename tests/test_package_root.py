@@ -5,7 +5,14 @@ import pandas as pd
 import pytest
 
 import strataweave
-from strataweave.files import atomic_write_bytes, atomic_write_text, guard_cell, sha256_file, write_table
+from strataweave.files import (
+    atomic_write_arrays,
+    atomic_write_bytes,
+    atomic_write_text,
+    guard_cell,
+    sha256_file,
+    write_table,
+)
 from strataweave.seeding import child_seeds
 
 
@@ -72,3 +79,13 @@ def test_child_seeds_are_reproducible_distinct_and_follow_seed_sequence_spawn():
     # Reference: numpy's SeedSequence.spawn produces the children; generate_state gives the integer.
     expected = [int(c.generate_state(1, dtype=np.uint32)[0]) for c in np.random.SeedSequence(42).spawn(5)]
     assert seeds == expected
+
+
+def test_atomic_write_arrays_round_trips_without_pickle(tmp_path):
+    arrays = {"centres": np.arange(6.0).reshape(2, 3), "names": np.array(["S1", "S2"])}
+    atomic_write_arrays(tmp_path / "a.npz", arrays)
+    with np.load(tmp_path / "a.npz", allow_pickle=False) as archive:  # numpy's own reader is the reference
+        assert sorted(archive.files) == ["centres", "names"]
+        np.testing.assert_array_equal(archive["centres"], arrays["centres"])
+        np.testing.assert_array_equal(archive["names"], arrays["names"])
+    assert [p.name for p in tmp_path.iterdir()] == ["a.npz"]  # no temporary file left behind

@@ -3,10 +3,12 @@
 from __future__ import annotations
 
 import hashlib
+import io
 import os
 import tempfile
 from pathlib import Path
 
+import numpy as np
 import pandas as pd
 
 _FORMULA_STARTS = ("=", "+", "-", "@")
@@ -37,6 +39,13 @@ def atomic_write_bytes(path: str | os.PathLike, data: bytes) -> None:
 def atomic_write_text(path: str | os.PathLike, text: str) -> None:
     """Text version of :func:`atomic_write_bytes` (UTF-8)."""
     atomic_write_bytes(path, text.encode("utf-8"))
+
+
+def atomic_write_arrays(path: str | os.PathLike, arrays: dict[str, np.ndarray]) -> None:
+    """Named arrays as one `.npz` (read back with `allow_pickle=False`), written atomically."""
+    buffer = io.BytesIO()
+    np.savez(buffer, **arrays)
+    atomic_write_bytes(path, buffer.getvalue())
 
 
 def guard_cell(value: object) -> object:

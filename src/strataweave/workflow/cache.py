@@ -10,13 +10,12 @@ so a result counts as finished only once its JSON exists. Arrays are read back w
 from __future__ import annotations
 
 import hashlib
-import io
 import json
 from pathlib import Path
 
 import numpy as np
 
-from strataweave.files import atomic_write_bytes, atomic_write_text
+from strataweave.files import atomic_write_arrays, atomic_write_text
 from strataweave.workflow.codec import decode, encode
 
 CACHE_FORMAT = 1
@@ -63,9 +62,7 @@ class StageCache:
         """Store a stage result under its key: the JSON tree last, so a half-written entry never counts."""
         tree, arrays = encode(result)
         json_path, npz_path = self._paths(stage, key)
-        buffer = io.BytesIO()
-        np.savez(buffer, **arrays)
-        atomic_write_bytes(npz_path, buffer.getvalue())
+        atomic_write_arrays(npz_path, arrays)
         record = {"stage": stage, "key": key, "result": tree}
         atomic_write_text(json_path, json.dumps(record, allow_nan=True))
 

@@ -7,7 +7,6 @@ holds the arrays those states refer to (prefixed per part) and the subtype centr
 
 from __future__ import annotations
 
-import io
 import json
 from pathlib import Path
 
@@ -17,7 +16,7 @@ from strataweave.caution import CAUTION
 from strataweave.data.preprocess import Preprocessor
 from strataweave.errors import InputError
 from strataweave.factorize import JointNMF
-from strataweave.files import atomic_write_bytes, atomic_write_text
+from strataweave.files import atomic_write_arrays, atomic_write_text
 from strataweave.workflow.config import Workflow
 
 MODEL_FORMAT = "strataweave.model/1"
@@ -55,9 +54,7 @@ def write_model(folder: Path, flow: Workflow, prepared: dict, fitted: dict) -> N
         "far_threshold": fitted["far_threshold"],
         "training_patients": int(len(prepared["patients"])),
     }
-    buffer = io.BytesIO()
-    np.savez(buffer, **arrays)
-    atomic_write_bytes(folder / MODEL_ARRAYS, buffer.getvalue())
+    atomic_write_arrays(folder / MODEL_ARRAYS, arrays)
     atomic_write_text(folder / MODEL_JSON, json.dumps(model, indent=1) + "\n")
 
 

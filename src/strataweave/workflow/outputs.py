@@ -6,15 +6,13 @@ bytes as an uninterrupted one. Tables carry the caution as a '# ' comment line.
 
 from __future__ import annotations
 
-import io
 import json
 from pathlib import Path
 
-import numpy as np
 import pandas as pd
 
 from strataweave.caution import CAUTION
-from strataweave.files import atomic_write_bytes, atomic_write_text, write_table
+from strataweave.files import atomic_write_arrays, atomic_write_text, write_table
 from strataweave.report.contract import FIGURE_DATA_FILE, RESULTS_FILE, check_figure_data, check_results
 from strataweave.workflow.config import Workflow
 from strataweave.workflow.figure_data import build_figure_data
@@ -62,12 +60,6 @@ def write_tables(folder: Path, stage_results: dict, grouping: ReportedGrouping) 
         _table(table.rename(columns={"group": "subtype", "set": "gene_set"}), folder / "enrichment.tsv")
 
 
-def _write_arrays(path: Path, arrays: dict[str, np.ndarray]) -> None:
-    buffer = io.BytesIO()
-    np.savez(buffer, **arrays)
-    atomic_write_bytes(path, buffer.getvalue())
-
-
 def reported_grouping(stage_results: dict) -> ReportedGrouping:
     """The subtypes of a run, or the given groups of an evaluation."""
     if "final_fit" in stage_results:
@@ -101,7 +93,7 @@ def write_outputs(folder: RunFolder, flow: Workflow, stage_results: dict, manife
     write_tables(folder.path, stage_results, grouping)
     if not groups_given:
         write_model(folder.path / "model", flow, prepared, stage_results["final_fit"])
-    _write_arrays(folder.path / FIGURE_DATA_FILE, arrays)
+    atomic_write_arrays(folder.path / FIGURE_DATA_FILE, arrays)
     atomic_write_text(folder.path / RESULTS_FILE, json.dumps(results, indent=1, allow_nan=False) + "\n")
     folder.write_manifest(manifest)
     if flow.report.formats:
