@@ -169,3 +169,13 @@ def test_synth_writes_a_cohort_that_check_accepts(tmp_path, capsys) -> None:
     )
     assert main(["check", str(tmp_path / "flow.toml")]) == 0
     assert "120 patients" in capsys.readouterr().out
+
+
+def test_evaluate_refuses_groups_that_name_no_analysis_patient(tmp_path, capsys) -> None:
+    write_tiny_files(tmp_path)
+    (tmp_path / "groups.tsv").write_text("patient_id\tgroup\nX1\tA\nX2\tB\n")
+    argv = ["evaluate", str(tmp_path / "flow.toml"), "--groups", str(tmp_path / "groups.tsv"),
+            "--out", str(tmp_path / "out"), "--quiet"]
+    assert main(argv) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert len(err) == 1 and "--groups: found 0 group(s) among the 6 analysis patients" in err[0]

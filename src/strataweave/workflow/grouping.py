@@ -7,6 +7,7 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
+from strataweave.errors import InputError
 from strataweave.evaluate.grouping import group_order
 
 
@@ -54,6 +55,11 @@ def analysis_patients(loaded: dict, prepared: dict | None) -> pd.Index:
 def given_grouping(groups: pd.Series, patients: pd.Index) -> ReportedGrouping:
     """A grouping the user brought, on the analysis patients it labels (confidence 1, all core)."""
     labelled = groups.reindex(patients).dropna()
+    if labelled.nunique() < 2:
+        raise InputError(
+            f"--groups: found {labelled.nunique()} group(s) among the {len(patients)} analysis patients "
+            f"({len(labelled)} of the file's {len(groups)} patients are among them); expected at least 2 groups"
+        )
     names = [str(name) for name in group_order(labelled)]
     codes = pd.Categorical(labelled.astype(str), categories=names).codes.astype(np.int64)
     n = len(labelled)
