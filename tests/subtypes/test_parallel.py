@@ -16,13 +16,14 @@ from strataweave.subtypes.parallel import ParallelSettings, run_tasks
 
 
 def seeded_projection_labels(shared, seed):
-    """A small seeded labelling task, with the BLAS thread limit seen inside the worker."""
+    """A small seeded labelling task, with the BLAS and OpenMP thread limits seen inside the worker
+    (a second thread splits k-means and BLAS sums differently, which changes the last bits)."""
     rng = np.random.default_rng(seed)
     data = shared["data"]
     rows = rng.choice(data.shape[0], size=40, replace=False)
     labels = np.argmax(data[rows] @ rng.normal(size=(data.shape[1], 3)), axis=1)
-    blas_threads = [pool["num_threads"] for pool in threadpool_info() if pool["user_api"] == "blas"]
-    return rows, labels, blas_threads
+    threads = [pool["num_threads"] for pool in threadpool_info() if pool["user_api"] in ("blas", "openmp")]
+    return rows, labels, threads
 
 
 @pytest.fixture(scope="module")
@@ -80,15 +81,25 @@ def test_scheduler_without_workers_is_an_input_error_within_the_timeout(shared):
 def test_worker_running_other_code_than_the_main_process_is_refused(shared, monkeypatch):
     # A worker process started after the package was edited computes other numbers for the
     # same seed; here the main process pretends to have read other source than the workers.
-    monkeypatch.setattr(parallel, "CODE_FINGERPRINT", "0" * 64)
+    monkeypatch.setattr(parallel, "code_fingerprint", lambda: "0" * 64)
     with pytest.raises(InputError, match="workers: found a worker running other strataweave source"):
         run_tasks(seeded_projection_labels, shared, child_seeds(3, 2), ParallelSettings("processes", n_jobs=2))
 
 
+@pytest.mark.slow
 def test_code_fingerprint_is_the_same_in_every_fresh_process():
     # Two independent interpreters reading the same install must agree, or every worker
     # would be refused: nothing process-specific (paths, times, thread counts) goes in.
-    script = "from strataweave.subtypes.parallel import CODE_FINGERPRINT; print(CODE_FINGERPRINT)"
+    script = "from strataweave.subtypes.parallel import code_fingerprint; print(code_fingerprint())"
     single_threaded = {**os.environ, "OPENBLAS_NUM_THREADS": "1", "OMP_NUM_THREADS": "1"}
-    other = subprocess.run([sys.executable, "-c", script], capture_output=True, text=True, check=True, env=single_threaded)
-    assert other.stdout.strip() == parallel.CODE_FINGERPRINT
+    command = [sys.executable, "-c", script]
+    other = subprocess.run(command, capture_output=True, text=True, check=True, env=single_threaded)
+    assert other.stdout.strip() == parallel.code_fingerprint()
+
+
+def test_fingerprint_ignores_docstrings_comments_and_layout_but_not_code():
+    original = b'"""Module."""\n\ndef total(x):\n    """Sum."""\n    return x.sum()  # pairwise\n'
+    reworded = b'"""Other words."""\ndef total(x):\n    """Sum of x."""\n\n    return x.sum()\n'
+    changed = b'"""Module."""\n\ndef total(x):\n    """Sum."""\n    return x.sum(axis=0)\n'
+    assert parallel._code_without_docstrings(original) == parallel._code_without_docstrings(reworded)
+    assert parallel._code_without_docstrings(original) != parallel._code_without_docstrings(changed)

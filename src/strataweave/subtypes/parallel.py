@@ -14,9 +14,11 @@ compute other numbers for the same seed.
 
 from __future__ import annotations
 
+import ast
 from collections.abc import Callable, Iterator, Sequence
 from contextlib import ExitStack, contextmanager
 from dataclasses import dataclass
+from functools import cache
 from hashlib import sha256
 from pathlib import Path
 from typing import Any
@@ -62,28 +64,45 @@ class ParallelSettings:
 TASK_SOURCES = ("factorize/**/*.py", "subtypes/**/*.py", "seeding.py")  # the package code tasks run
 
 
-def _code_fingerprint() -> str:
-    """Digest of the task source files and of the numeric libraries (versions, BLAS kernels)."""
-    digest = sha256()
+def _read_task_sources() -> dict[str, bytes]:
     package = Path(__file__).resolve().parents[1]
-    for path in sorted(path for pattern in TASK_SOURCES for path in package.glob(pattern)):
-        digest.update(path.relative_to(package).as_posix().encode())
-        digest.update(path.read_bytes())
+    paths = sorted(path for pattern in TASK_SOURCES for path in package.glob(pattern))
+    return {path.relative_to(package).as_posix(): path.read_bytes() for path in paths}
+
+
+_TASK_SOURCE_TEXT = _read_task_sources()  # read at import, close to when this process loaded that code
+
+
+def _code_without_docstrings(text: bytes) -> str:
+    """The module's syntax tree without docstrings, comments or layout: edits to those are harmless."""
+    tree = ast.parse(text)
+    for node in ast.walk(tree):
+        documented = isinstance(node, (ast.Module, ast.ClassDef, ast.FunctionDef, ast.AsyncFunctionDef))
+        if documented and ast.get_docstring(node, clean=False) is not None:
+            node.body = node.body[1:]
+    return ast.dump(tree)
+
+
+@cache
+def code_fingerprint() -> str:
+    """Digest of the task code this process loaded and of its numeric libraries (versions, BLAS kernels)."""
+    digest = sha256()
+    for name, text in _TASK_SOURCE_TEXT.items():
+        digest.update(name.encode())
+        digest.update(_code_without_docstrings(text).encode())
     blas = sorted(f"{pool['internal_api']} {pool['version']} {pool.get('architecture')}"
                   for pool in threadpool_info() if pool["user_api"] == "blas")
     digest.update(" ".join([np.__version__, scipy.__version__, sklearn.__version__, *blas]).encode())
     return digest.hexdigest()
 
 
-CODE_FINGERPRINT = _code_fingerprint()  # taken at import, close to when this process read the package
-
-
 def _single_threaded(function: Callable, shared: Any, params: Any, main_fingerprint: str) -> Any:
-    if CODE_FINGERPRINT != main_fingerprint:
+    if code_fingerprint() != main_fingerprint:
         raise InputError(
             f"workers: found a worker running other strataweave source or numeric libraries "
-            f"(fingerprint {CODE_FINGERPRINT[:12]}) than the main process ({main_fingerprint[:12]}); "
-            "expected the same code everywhere (restart after editing the package, or install the same versions on the workers)"
+            f"(fingerprint {code_fingerprint()[:12]}) than the main process ({main_fingerprint[:12]}); "
+            "expected the same code everywhere (restart after editing the package, "
+            "or install the same versions on the workers)"
         )
     with threadpool_limits(limits=1):
         return function(shared, params)
@@ -172,7 +191,7 @@ class TaskRunner:
         if self._stack is None:
             raise RuntimeError("TaskRunner.map called outside its 'with' block")
         calls = (
-            joblib.delayed(_single_threaded)(function, shared, params, CODE_FINGERPRINT) for params in task_params
+            joblib.delayed(_single_threaded)(function, shared, params, code_fingerprint()) for params in task_params
         )
         if self.settings.backend == "dask":
             with joblib.parallel_config(backend="dask", scatter=[shared]):
