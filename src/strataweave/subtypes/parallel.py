@@ -1,10 +1,11 @@
 """Run independent tasks through joblib: serial, local processes, or Dask distributed.
 
-Every task runs with BLAS limited to one thread (threadpoolctl), whatever the backend: worker
-processes then do not oversubscribe the cores, and floating-point sums happen in the same
-order everywhere, so a task given the same seed returns the same result on every backend.
-The limit is set in this process for the whole run as well: serial tasks and the threads of
-an in-process Dask cluster then share one setting instead of racing to set and restore it.
+Every task runs with BLAS and OpenMP limited to one thread (threadpoolctl), whatever the
+backend: worker processes then do not oversubscribe the cores, and floating-point sums (BLAS
+products, scikit-learn's k-means) happen in the same order everywhere, so a task given the
+same seed returns the same result on every backend. The limit is set in this process for
+the whole run as well: serial tasks and the threads of an in-process Dask cluster then share
+one setting instead of racing to set and restore it.
 
 Every task also checks that its process runs the same task source (factorize, subtypes,
 seeding) and numeric libraries as the main process: a worker started after that source was
