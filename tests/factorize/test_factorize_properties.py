@@ -165,3 +165,14 @@ def test_objective_never_increases_on_random_weighted_graphs(seed):
     model = JointNMF(3, graph_weight=10.0 ** rng.uniform(-1, 2), max_iter=60, tol=0, init="random", random_state=seed)
     model.fit(views, affinity)
     _assert_non_increasing(model.objective_)
+
+
+def test_default_modality_weights_are_the_balance_the_model_fits_with(cohort):
+    from strataweave.factorize.views import default_modality_weights
+
+    views, _, graph = cohort
+    model = JointNMF(3, max_iter=5, random_state=0).fit(views, graph)
+    assert np.allclose(default_modality_weights(views), model.modality_weights_, rtol=1e-12)
+    # the formula of the issue: alpha_v = 1 / ||X_v||_F^2 over the observed entries
+    expected = [1.0 / np.nansum(np.asarray(v, dtype=float) ** 2) for v in views]
+    assert np.allclose(default_modality_weights(views), expected, rtol=1e-12)

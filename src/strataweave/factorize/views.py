@@ -180,6 +180,19 @@ def _default_weight(name: str, squared_norm: float) -> float:
     return 1.0 / squared_norm
 
 
+def default_modality_weights(views: Sequence | Mapping) -> list[float]:
+    """The balance alpha_v = 1 / ||X_v||_F^2 (observed entries) that JointNMF uses unless given weights.
+
+    Callers that weight modalities relative to this balance multiply it, so the formula
+    lives here only.
+    """
+    names, frames = _as_named_list(views)
+    return [
+        _default_weight(name, float(np.nansum(np.square(_numeric(name, frame)))))
+        for name, frame in zip(names, frames)
+    ]
+
+
 def prepare_views(
     views: Sequence | Mapping,
     *,

@@ -15,6 +15,7 @@ import numpy as np
 import pandas as pd
 
 from strataweave.factorize import JointNMF
+from strataweave.factorize.views import default_modality_weights
 from strataweave.subtypes.parallel import ParallelSettings
 from strataweave.subtypes.recommend import Recommendation
 from strataweave.subtypes.result import SweepResult, subtype_names
@@ -38,9 +39,9 @@ def factorization_options(flow: Workflow, prepared: dict) -> dict:
     }
     weights = [m.weight for m in flow.modalities]
     if any(w != 1.0 for w in weights):
-        # the model's default balance is 1 / ||X_v||^2; the workflow weight scales it
-        norms = [float(np.nansum(view.to_numpy() ** 2)) for view in prepared["views"].values()]
-        options["modality_weights"] = [w / n if n > 0 else w for w, n in zip(weights, norms)]
+        # the workflow weight scales the model's own balance between modalities
+        balance = default_modality_weights(list(prepared["views"].values()))
+        options["modality_weights"] = [w * a for w, a in zip(weights, balance)]
     return options
 
 
