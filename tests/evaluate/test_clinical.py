@@ -99,6 +99,17 @@ def test_untestable_variable_and_unknown_column():
         associate_clinical(grouping, clinical, variables=["bmi"])
 
 
+def test_a_table_with_only_patient_ids_gives_empty_tables_with_their_header():
+    grouping, clinical = _cohort()
+    result = associate_clinical(grouping, clinical.iloc[:, :0])
+    association = result.tables["association"]
+    assert association.empty and list(association.columns)[:7] == [
+        "variable", "kind", "test", "statistic", "df", "p_value", "p_adjusted"]
+    assert result.summary["variables"] == [] and result.summary["n_patients"] == len(grouping)
+    assert result.tables["level_counts"].empty and result.tables["continuous_summary"].empty
+    json.dumps(result.summary)
+
+
 def test_monte_carlo_is_seeded():
     grouping, clinical = _cohort()
     first = associate_clinical(grouping, clinical, variables=["stage"], n_monte_carlo=300, random_state=9)

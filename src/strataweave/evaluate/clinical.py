@@ -19,6 +19,10 @@ from strataweave.evaluate.result import Evaluation, plain
 from strataweave.seeding import child_seeds
 
 
+ASSOCIATION_COLUMNS = ("variable", "kind", "test", "statistic", "df", "p_value", "p_adjusted", "effect_size",
+                       "effect_size_name", "anova_statistic", "anova_p_value", "n_used", "n_missing", "status")
+
+
 def _is_categorical(values: pd.Series, name: str, categorical) -> bool:
     return name in categorical or not pd.api.types.is_numeric_dtype(values) or pd.api.types.is_bool_dtype(values)
 
@@ -106,14 +110,9 @@ def associate_clinical(
             row, detail = _continuous_row(labels, values, groups)
             summaries.append(detail.assign(variable=name))
         rows.append({"variable": name, "n_used": int(known.sum()), "n_missing": int((~known).sum()), **row})
-    association = pd.DataFrame(rows)
-    for column in ("test", "statistic", "df", "p_value", "effect_size", "effect_size_name", "anova_statistic", "anova_p_value"):
-        if column not in association.columns:
-            association[column] = np.nan
-    association["p_adjusted"] = bh_adjust(association["p_value"].to_numpy(dtype=float))
-    order = ["variable", "kind", "test", "statistic", "df", "p_value", "p_adjusted", "effect_size", "effect_size_name",
-             "anova_statistic", "anova_p_value", "n_used", "n_missing", "status"]
-    association = association[order]
+    # the full header even with no variables to test, or none of a kind
+    association = pd.DataFrame(rows).reindex(columns=[c for c in ASSOCIATION_COLUMNS if c != "p_adjusted"])
+    association.insert(6, "p_adjusted", bh_adjust(association["p_value"].to_numpy(dtype=float)))
     level_counts = pd.concat(counts, ignore_index=True)[["variable", "group", "level", "count"]] if counts else pd.DataFrame(columns=["variable", "group", "level", "count"])
     continuous = pd.concat(summaries, ignore_index=True) if summaries else pd.DataFrame(columns=["group", "n", "mean", "q1", "median", "q3", "variable"])
     continuous = continuous[["variable", "group", "n", "mean", "q1", "median", "q3"]]
