@@ -12,7 +12,7 @@ from scipy import stats
 from sklearn.metrics import roc_auc_score
 
 from strataweave import InputError
-from strataweave.evaluate.markers import find_markers, markers_by_modality
+from strataweave.evaluate.markers import find_markers, markers_by_modality, untestable_modality
 from strataweave.evaluate.rank_tests import column_ranks, group_rank_sums
 
 
@@ -94,3 +94,16 @@ def test_unmeasured_patients_dropped_and_gaps_rejected():
         find_markers(grouping, data, modality="rna")
     with pytest.raises(InputError, match="expected one of mann_whitney, welch"):
         find_markers(grouping, data.iloc[:, :3].dropna(), test="t")
+
+
+def test_a_group_measured_once_is_said_untestable_in_words():
+    grouping, data = _modality(seed=4)
+    assert untestable_modality(grouping, data, "rna") is None
+    data = data.copy()
+    data.loc[grouping.index[grouping == "c"][1:]] = np.nan  # one patient of group c measured
+    reason = untestable_modality(grouping, data, "rna")
+    assert reason == "group 'c' has 1 patient measured in rna, expected at least 2 groups of 2 or more"
+    with pytest.raises(InputError, match="group 'c' has 1 patient"):  # what find_markers would do instead
+        find_markers(grouping, data, modality="rna")
+    data.loc[grouping.index[grouping != "a"]] = np.nan
+    assert untestable_modality(grouping, data, "rna").startswith("only group 'a' has patients measured in rna")

@@ -10,7 +10,7 @@ from lifelines.utils import restricted_mean_survival_time
 
 from strataweave import InputError
 from strataweave.evaluate.rmst import rmst_with_variance
-from strataweave.evaluate.survival import evaluate_survival
+from strataweave.evaluate.survival import evaluate_survival, untestable_outcome
 
 
 def _by_group(rows, key="group"):
@@ -156,3 +156,14 @@ def test_group_of_one_patient_and_missing_column_raise(leukemia):
         evaluate_survival(grouping, data, "months", "status")
     with pytest.raises(InputError, match="no column 'centre'"):
         evaluate_survival(grouping, data, "t", "status", covariates=["centre"], n_permutations=0)
+
+
+def test_a_group_with_one_known_outcome_is_said_untestable_in_words(leukemia):
+    grouping, data = leukemia
+    assert untestable_outcome(grouping, data, "t", "status") is None
+    data = data.copy()
+    data.loc[grouping.index[grouping == "placebo"][1:], "t"] = np.nan
+    assert untestable_outcome(grouping, data, "t", "status") == (
+        "group 'placebo' has 1 patient with a known survival time and event, expected at least 2 groups of 2 or more")
+    with pytest.raises(InputError, match="group 'placebo' has 1 patient"):  # what evaluate_survival would do instead
+        evaluate_survival(grouping, data, "t", "status", n_permutations=0)

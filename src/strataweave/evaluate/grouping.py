@@ -50,11 +50,32 @@ def align(grouping: pd.Series, table: pd.DataFrame, table_name: str) -> tuple[pd
     return labels, table.loc[shared]
 
 
-def require_two_per_group(labels: pd.Series, where: str) -> None:
-    """Raise InputError naming the first group that has a single patient."""
+def lonely_group(labels: pd.Series) -> str | None:
+    """'group X has 1 patient' for the first group with a single patient, else None."""
     sizes = labels.value_counts()
     lonely = sizes[sizes < 2]
-    if len(lonely):
-        raise InputError(
-            f"{where}: group {lonely.index[0]!r} has 1 patient, expected at least 2 patients per group"
-        )
+    return f"group {lonely.index[0]!r} has 1 patient" if len(lonely) else None
+
+
+def untestable(grouping: pd.Series, patients: pd.Index, which: str) -> str | None:
+    """Why `grouping` cannot be compared on `patients` (those with data, described by `which`), or None.
+
+    They must hold at least 2 groups and no group of a single patient, e.g. "group 'S3' has 1
+    patient measured in rna, expected at least 2 groups of 2 or more" for `which` "measured in rna".
+    """
+    labelled = check_grouping(grouping)
+    labels = labelled[labelled.index.isin(patients)]
+    if labels.nunique() == 0:
+        problem = "no group has patients"
+    elif labels.nunique() == 1:
+        problem = f"only group {labels.iloc[0]!r} has patients"
+    else:
+        problem = lonely_group(labels)
+    return None if problem is None else f"{problem} {which}, expected at least 2 groups of 2 or more"
+
+
+def require_two_per_group(labels: pd.Series, where: str) -> None:
+    """Raise InputError naming the first group that has a single patient."""
+    lonely = lonely_group(labels)
+    if lonely is not None:
+        raise InputError(f"{where}: {lonely}, expected at least 2 patients per group")

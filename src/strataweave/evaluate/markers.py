@@ -7,7 +7,7 @@ import pandas as pd
 from scipy import stats
 
 from strataweave.errors import InputError
-from strataweave.evaluate.grouping import align, check_grouping, group_order
+from strataweave.evaluate.grouping import align, check_grouping, group_order, untestable
 from strataweave.evaluate.multiple_testing import bh_adjust
 from strataweave.evaluate.rank_tests import group_rank_sums, mann_whitney_from_rank_sums
 from strataweave.evaluate.result import Evaluation, plain
@@ -116,6 +116,15 @@ def find_markers(
         ),
     }
     return Evaluation(tables={"markers": table, "top_markers": top}, summary=plain(summary))
+
+
+def untestable_modality(grouping: pd.Series, data: pd.DataFrame, modality: str = "modality") -> str | None:
+    """Why `find_markers` cannot test this grouping on `data`, in words, or None when it can.
+
+    The patients measured on the modality (not all-NaN rows) must hold at least 2 groups and
+    no group of a single patient; a small subtype that is mostly unmeasured fails this.
+    """
+    return untestable(grouping, data.index[data.notna().any(axis=1).to_numpy()], f"measured in {modality}")
 
 
 def markers_by_modality(grouping: pd.Series, views: dict[str, pd.DataFrame], **options) -> Evaluation:

@@ -13,7 +13,7 @@ import pandas as pd
 
 from strataweave.errors import InputError
 from strataweave.evaluate import cox, kaplan_meier, rmst
-from strataweave.evaluate.grouping import align, check_grouping, group_order
+from strataweave.evaluate.grouping import align, check_grouping, group_order, untestable
 from strataweave.evaluate.logrank import logrank_permutation_p, logrank_test
 from strataweave.evaluate.multiple_testing import bh_adjust
 from strataweave.evaluate.outcome import read_outcome
@@ -107,6 +107,16 @@ def _cox(clinical, covariates, time, event, labels, groups, min_group_size, even
     except cox.ConvergenceError as error:
         return None, n_dropped, f"not tested: the Cox model did not converge ({str(error).splitlines()[0]})"
     return fit, n_dropped, TESTED
+
+
+def untestable_outcome(grouping: pd.Series, clinical: pd.DataFrame, time_column: str, event_column: str) -> str | None:
+    """Why `evaluate_survival` cannot describe this grouping's survival, in words, or None when it can.
+
+    The patients with a known time and event must hold at least 2 groups and no group of a
+    single patient. Bad outcome cells still raise InputError.
+    """
+    known = read_outcome(clinical, time_column, event_column).time.index
+    return untestable(grouping, known, "with a known survival time and event")
 
 
 def evaluate_survival(
