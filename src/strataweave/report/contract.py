@@ -7,7 +7,8 @@ workflow writes, and this module documents, three things:
     Every number the report shows. Required: ``caution``, ``subtype_count``, ``cohort`` and
     ``subtypes``. Every other top-level section is optional; an absent section means the
     report leaves that section out (no survival columns -> no ``survival``; no modalities,
-    as in ``strataweave evaluate`` without omics -> no ``markers`` and no ``enrichment``).
+    as in ``strataweave evaluate`` without omics -> no ``markers`` and no ``enrichment``);
+    ``not_run`` then says why in words, and the report and the slides show that instead.
     Floats that could not be computed are ``null`` where the entry says "may be null".
     Subtypes are named by the strings in ``subtypes.labels``; everywhere else a subtype is
     referred to by its *code*, the 0-based position in that list.
@@ -272,6 +273,12 @@ RESULTS: dict[str, Entry] = {
             "set_size": Entry("integer", "set members among the measured features"),
             "p_adjusted": Entry("number", "Benjamini-Hochberg adjusted p", nullable=True),
         },
+        required=False,
+    ),
+    "not_run": Entry(
+        "mapping",
+        "analyses left out, each by the name of its section (survival, clinical, markers, enrichment, "
+        "graph_agreement) or markers/<modality>, with the reason as text starting 'not run: '",
         required=False,
     ),
     "parameters": Entry(

@@ -31,6 +31,11 @@ class DrawnFigure:
     png: bytes
 
 
+def marker_blocks(run: RunView) -> list[tuple[int, dict]]:
+    """(index, block) of the modalities with at least one marker: a heatmap without rows shows nothing."""
+    return [(index, block) for index, block in enumerate(run.results.get("markers") or []) if block["rows"]]
+
+
 def plan_figures(run: RunView) -> list[FigurePlan]:
     """The figures this run calls for, in report order; absent sections give no figures."""
     plans = []
@@ -41,7 +46,7 @@ def plan_figures(run: RunView) -> list[FigurePlan]:
             FigurePlan("cohort_filters", "cohort", "Features kept after each filter step, per modality.",
                        figures_cohort.draw_filters, (10.0, 5.0)),
         ]
-    if run.has("graph"):
+    if run.has("graph") and run.results["graph"]["agreement"]:
         plans.append(FigurePlan("graph_agreement", "graph",
                                 "Mean fraction of shared neighbours between the graphs of two modalities.",
                                 figures_cohort.draw_agreement, (7.5, 6.0)))
@@ -80,7 +85,7 @@ def plan_figures(run: RunView) -> list[FigurePlan]:
             plans.append(FigurePlan("survival_cox_forest", "survival",
                                     "Hazard ratios of the Cox model with 95% intervals.", figures_outcome.draw_forest,
                                     (12.0, 1.8 + 0.6 * len(run.results["survival"]["cox"]))))
-    for index, block in enumerate(run.results.get("markers") or []):
+    for index, block in marker_blocks(run):
         plans.append(FigurePlan(f"markers_{index + 1}", "markers",
                                 f"Top markers per subtype in {block['modality']}.",
                                 partial(figures_biology.draw_marker_heatmap, index=index), (12.0, 7.0)))

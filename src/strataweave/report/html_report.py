@@ -96,6 +96,8 @@ def report_context(run: RunView, figures: list[DrawnFigure]) -> dict[str, Any]:
         "markers": [{"modality": block["modality"], "test": block.get("test"), "table": rows_table(block["rows"])}
                     for block in results.get("markers") or []],
         "enrichment": rows_table(results["enrichment"]) if run.has("enrichment") else None,
+        "not_run": {section: run.not_run_sentences(section)
+                    for section in ("graph_agreement", "survival", "clinical", "markers", "enrichment")},
         "methods": paragraph,
         "references": [REFERENCES[key] for key in cited],
         "reproducibility": _reproducibility(run),

@@ -5,6 +5,7 @@ from __future__ import annotations
 from typing import Any
 
 from strataweave.report.formatting import format_value
+from strataweave.report.run_folder import not_run_name
 
 REFERENCES: dict[str, str] = {
     "lee1999": "Lee DD, Seung HS. Learning the parts of objects by non-negative matrix factorization. "
@@ -66,35 +67,43 @@ def methods_paragraph(results: dict[str, Any]) -> tuple[str, list[str]]:
         return " [" + ", ".join(str(cited.index(key) + 1) for key in keys) + "]"
 
     modalities = results["cohort"]["modalities"]
+    single = len(modalities) == 1
     names = ", ".join(f"{m['name']} ({m['kind']}, {m['patients']} patients)" for m in modalities)
+    layers = "one omics layer" if single else f"{len(modalities)} omics layers"
     sentences = [f"{results['cohort']['patients']} patients were analysed"
-                 + (f" with {len(modalities)} omics layers: {names}." if modalities else ".")]
+                 + (f" with {layers}: {names}." if modalities else ".")]
     if results.get("graph"):
         graph = results["graph"]
         kernel = _phrase(" with the {kernel} kernel", kernel=_get(p, "graph.kernel"))
         metric = _phrase(" on {metric} distances", metric=_get(p, "graph.metric"))
+        built = (f"a patient-similarity graph keeping {graph['neighbours']} neighbours per patient was built"
+                 f"{kernel}{metric}{cite('wang2014')}")
         sentences.append(
-            f"Per modality, a patient-similarity graph keeping {graph['neighbours']} neighbours per patient was built"
-            f"{kernel}{metric}{cite('wang2014')}, and the graphs were fused by the {graph['rule']} rule; "
+            (f"From the one modality, {built}; " if single else
+             f"Per modality, {built}, and the graphs were fused by the {graph['rule']} rule; ")
             + (f"{graph['fallback_patients']} patients left without an edge were linked to their nearest "
                "neighbours in the average graph." if graph["fallback_patients"] else
                "no patient was left without an edge."))
     if results.get("selection"):
         selection = results["selection"]
+        restarts = _get(p, "factorization.restarts")
         settings = [_phrase("graph weight {w}", w=_get(p, "factorization.graph_weight")),
-                    _phrase("{r} restarts", r=_get(p, "factorization.restarts"))]
+                    _phrase("{r} restart" + ("" if restarts == 1 else "s"), r=restarts)]
         settings_text = ", ".join(x for x in settings if x)
         weight = f" ({settings_text})" if settings_text else ""
         resamples = _phrase("{n} resamples of {f} of the patients", n=_get(p, "resampling.resamples"),
                             f=_get(p, "resampling.fraction")) or "resamples of the patients"
         window = _get(p, "subtypes.pac_window")
         pac = _phrase(" with window {lo}-{hi}", lo=window[0], hi=window[1]) if isinstance(window, list) else ""
+        graph_name = "patient graph" if single else "fused graph"
+        factorisation = (f"A non-negative matrix factorisation of the omics layer{cite('lee1999')} was" if single
+                         else "A joint non-negative matrix factorisation shared one patient factor across modalities"
+                         f"{cite('lee1999')} and was")
         sentences.append(
-            "A joint non-negative matrix factorisation shared one patient factor across modalities"
-            f"{cite('lee1999')} and was regularised by the fused graph{cite('cai2011')}{weight}. "
+            f"{factorisation} regularised by the {graph_name}{cite('cai2011')}{weight}. "
             f"Subtype counts {format_value(selection['counts'])} were compared by consensus over {resamples}"
             f"{cite('monti2003')}, using the proportion of ambiguous clustering{pac}{cite('senbabaoglu2014')}, "
-            f"the cophenetic correlation{cite('brunet2004')}, the eigengap of the fused graph{cite('luxburg2007')} "
+            f"the cophenetic correlation{cite('brunet2004')}, the eigengap of the {graph_name}{cite('luxburg2007')} "
             "and further criteria listed in the report.")
         chosen = "fixed by the user" if selection.get("overridden") else "recommended"
         reason = selection["reason"].rstrip()
@@ -129,6 +138,8 @@ def methods_paragraph(results: dict[str, Any]) -> tuple[str, list[str]]:
                          "hypergeometric distribution, the universe being the measured features.")
     if any(results.get(key) for key in ("clinical", "markers", "enrichment", "survival")):
         sentences.append(f"p-values were adjusted by the Benjamini-Hochberg procedure{cite('benjamini1995')}.")
+    for name, reason in (results.get("not_run") or {}).items():
+        sentences.append(f"{not_run_name(str(name))}: {reason}.")
     seed = _get(p, "seed")
     if seed is not None:
         sentences.append(f"All random draws derive from the seed {seed}.")

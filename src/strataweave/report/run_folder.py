@@ -22,6 +22,17 @@ from strataweave.report.contract import (
 )
 
 
+NOT_RUN_NAMES = {"graph_agreement": "Agreement between modality graphs", "survival": "Survival",
+                 "clinical": "Clinical association", "markers": "Markers", "enrichment": "Gene-set enrichment"}
+
+
+def not_run_name(name: str) -> str:
+    """A key of results.json's not_run in words: 'Survival', 'Markers of rna', ..."""
+    section, _, modality = name.partition("/")
+    words = NOT_RUN_NAMES.get(section, section.replace("_", " ").capitalize())
+    return f"{words} of {modality}" if modality else words
+
+
 @dataclass(frozen=True)
 class RunView:
     """What the report knows about a run: results.json, figure arrays and the manifest."""
@@ -64,6 +75,17 @@ class RunView:
     def has(self, section: str) -> bool:
         """True when results.json carries this optional section (and it is not empty)."""
         return bool(self.results.get(section))
+
+    @property
+    def not_run(self) -> dict[str, str]:
+        """Analyses the run left out, by section name or markers/<modality>: 'not run: <reason>'."""
+        return {str(name): str(reason) for name, reason in (self.results.get("not_run") or {}).items()}
+
+    def not_run_sentences(self, section: str | None = None) -> list[str]:
+        """'<Analysis>: not run: <reason>' for each analysis left out; with `section`, only that
+        section's (for markers also each modality's, markers/<modality>)."""
+        return [f"{not_run_name(name)}: {reason}" for name, reason in self.not_run.items()
+                if section is None or name == section or name.startswith(f"{section}/")]
 
 
 def _read_json(path: Path) -> Any:

@@ -10,6 +10,7 @@ from matplotlib.backends.backend_pdf import PdfPages
 from matplotlib.figure import Figure, SubFigure
 
 from strataweave.report import figures_biology, figures_cohort, figures_outcome, figures_selection, figures_subtypes
+from strataweave.report.figure_catalogue import marker_blocks
 from strataweave.report.figure_style import report_style
 from strataweave.report.formatting import format_p, plot_text, shorten
 from strataweave.report.palette import NEUTRAL
@@ -81,7 +82,8 @@ class SlideDeck:
 def _title_lines(run: RunView) -> list[str]:
     results = run.results
     cohort = results["cohort"]
-    lines = [f"{cohort['patients']} patients, {len(cohort['modalities'])} omics layers, "
+    layers = len(cohort["modalities"])
+    lines = [f"{cohort['patients']} patients, {layers} omics layer{'' if layers == 1 else 's'}, "
              f"{results['subtype_count']} {run.group_word}s"]
     if "created" in run.manifest:
         lines.append(f"run started {run.manifest['created']}")
@@ -140,10 +142,12 @@ def render_slides(run: RunView) -> bytes:
         if run.has("clinical"):
             deck.table_page("Clinical associations", rows_table(
                 results["clinical"], ["variable", "test", "effect_size", "effect_size_name", "p_adjusted"]))
-        for index, block in enumerate(results.get("markers") or []):
+        for index, block in marker_blocks(run):
             deck.figure_page(f"Markers: {shorten(block['modality'], 40)}",
                              [lambda r, c, i=index: figures_biology.draw_marker_heatmap(r, c, i)])
         if run.has("enrichment") and figures_biology.enrichment_rows(run):
             deck.figure_page("Enrichment", [figures_biology.draw_enrichment])
+        if run.not_run:
+            deck.text_page("Analyses not run", [f"\u2022 {line}" for line in run.not_run_sentences()])
         deck.text_page("Summary", _summary_lines(run))
     return buffer.getvalue()
