@@ -151,3 +151,21 @@ def test_bad_settings_and_misaligned_inputs_are_input_errors(cohort):
         sweep_subtype_counts(cohort.views, shuffled, COUNTS)
     with pytest.raises(InputError, match="factorization: found 'n_components'"):
         sweep_subtype_counts(cohort.views, cohort.graph, COUNTS, factorization={"n_components": 3})
+
+
+def test_graph_partitions_match_scikit_learn_spectral_clustering():
+    """One embedding for every count gives the partitions of scikit-learn's SpectralClustering
+    (reference: sklearn.cluster.SpectralClustering with a precomputed affinity), count by count."""
+    from sklearn.cluster import SpectralClustering
+    from sklearn.datasets import make_blobs
+    from sklearn.neighbors import kneighbors_graph
+
+    from strataweave.subtypes.baselines import graph_partitions
+
+    points, _ = make_blobs(240, centers=4, cluster_std=2.0, random_state=3)
+    graph = kneighbors_graph(points, 10, include_self=False)
+    affinity = ((graph + graph.T) / 2).tocsr()
+    partitions = graph_partitions(affinity, [2, 3, 4, 5], random_state=0)
+    for count, labels in partitions.items():
+        reference = SpectralClustering(count, affinity="precomputed", random_state=0).fit_predict(affinity)
+        assert adjusted_rand_score(labels, reference) > 0.99

@@ -15,6 +15,21 @@ from strataweave.errors import InputError
 
 KMEANS_STARTS = 10
 MAX_UNIT_DISTANCE = np.sqrt(2.0)  # largest distance between two non-negative unit vectors
+PARTITION_FLOOR = 0.1  # weight of the other components in a factor started from a partition
+
+
+def partition_factor(labels: np.ndarray, n_components: int) -> np.ndarray:
+    """A patient factor that encodes a partition: 1 on the patient's own subtype, PARTITION_FLOOR elsewhere.
+
+    Used as `W_init`, it starts the joint NMF in the basin of that partition (the floor
+    keeps every component free to grow, which an exact zero would not under multiplicative updates).
+    """
+    labels = np.asarray(labels)
+    if labels.ndim != 1 or labels.size == 0 or labels.min() < 0 or labels.max() >= n_components:
+        raise InputError(f"labels: found codes outside 0..{n_components - 1}; expected one subtype code per patient")
+    factor = np.full((labels.size, n_components), PARTITION_FLOOR)
+    factor[np.arange(labels.size), labels] = 1.0
+    return factor
 
 
 def _unit_rows(W: np.ndarray, norm_order: int) -> np.ndarray:

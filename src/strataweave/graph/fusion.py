@@ -22,6 +22,7 @@ from strataweave.graph.metrics import paired_distances, prepare_rows
 from strataweave.graph.neighbours import nearest_neighbours
 from strataweave.graph.pairs import neighbour_pairs, pair_codes, strongest_pairs, symmetric_matrix, unique_pairs
 from strataweave.graph.patient_graph import PatientGraph
+from strataweave.graph.rule_choice import choose_rule, rule_candidates
 from strataweave.graph.rules import check_rule, combine_values
 
 
@@ -44,7 +45,7 @@ class _ModalityKernel:
 
 def fuse_modalities(
     data: Mapping[str, pd.DataFrame],
-    rule: str = "intersection",
+    rule: str = "auto",
     quorum: int | None = None,
     n_neighbours: int = 20,
     metric: str | Mapping[str, str] = "euclidean",
@@ -57,9 +58,10 @@ def fuse_modalities(
 ) -> PatientGraph:
     """One sparse patient graph from several modalities (patients x features DataFrames).
 
-    rule: `intersection` (minimum over the modalities a pair shares), `quorum` (the
-    quorum-th largest), `average` (mean) or `diffusion` (cross-network diffusion, with
-    `diffusion_neighbours` (default n_neighbours) and `diffusion_iterations`).
+    rule: `auto` (the intersection, a quorum or the average, whichever the modalities
+    confirm most: see `rule_choice`), `intersection` (minimum over the modalities a pair
+    shares), `quorum` (the quorum-th largest), `average` (mean) or `diffusion` (cross-network
+    diffusion, with `diffusion_neighbours` (default n_neighbours) and `diffusion_iterations`).
     kernel: `scaled_exponential` (local scales, width `kernel_spread`) or `gaussian`
     (one `bandwidth` per modality, default the median k-nearest-neighbour distance).
     A patient missing a modality has no edges in that modality's graph. Patients the rule
@@ -101,12 +103,19 @@ def fuse_modalities(
         report()
 
     presence = pd.DataFrame({name: patients.isin(frames[name].index) for name in names}, index=patients)
-    if rule == "diffusion":
-        fused = diffuse(left, right, values, presence.to_numpy(), diffusion_neighbours or n_neighbours,
-                        diffusion_iterations)
-    else:
-        fused = combine_values(values, rule, quorum)
-    weights, fallback = _sparsified_with_fallback(left, right, fused, values, n, n_neighbours)
+    confirmed = np.column_stack([np.isin(candidates, kernels[name].own_codes) for name in names])
+
+    def build(rule, quorum):
+        if rule == "diffusion":
+            fused = diffuse(left, right, values, presence.to_numpy(), diffusion_neighbours or n_neighbours,
+                            diffusion_iterations)
+        else:
+            fused = combine_values(values, rule, quorum)
+        return _sparsified_with_fallback(left, right, fused, values, n, n_neighbours)
+
+    requested = rule
+    candidates_tried = rule_candidates(len(names)) if rule == "auto" else [(rule, quorum)]
+    rule, quorum, (weights, fallback), evidence = choose_rule(candidates_tried, build, confirmed, names)
     keep = weights > 0
     return PatientGraph(
         patients=patients,
@@ -115,8 +124,10 @@ def fuse_modalities(
         fallback_patients=patients[fallback],
         modality_graphs=modality_graphs,
         presence=presence,
+        rule_evidence=evidence,
         parameters={
-            "rule": rule, "quorum": quorum, "n_neighbours": int(n_neighbours), "metric": metrics,
+            "rule": rule, "quorum": quorum, "rule_requested": requested, "n_neighbours": int(n_neighbours),
+            "metric": metrics,
             "kernel": kernel, "kernel_spread": kernel_spread,
             "bandwidth": {name: float(kernels[name].bandwidth) for name in names} if kernel == "gaussian" else None,
             "diffusion_neighbours": (diffusion_neighbours or n_neighbours) if rule == "diffusion" else None,

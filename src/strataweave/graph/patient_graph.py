@@ -19,7 +19,9 @@ class PatientGraph:
     `modality_graphs` holds each modality's own k-nearest-neighbour kernel graph on the same
     patients (no edges for patients missing that modality); `presence` says which patient has
     which modality; `fallback_patients` are the patients the fusion rule left without an edge
-    and that were connected to their strongest partners in the average graph instead.
+    and that were connected to their strongest partners in the average graph instead;
+    `rule_evidence` has one row per fusion rule considered (a single row unless the rule was
+    `auto`) with its confirmed share (see `rule_choice`) and whether it was chosen.
     """
 
     patients: pd.Index
@@ -29,6 +31,7 @@ class PatientGraph:
     modality_graphs: dict[str, sp.csr_matrix] = field(default_factory=dict)
     presence: pd.DataFrame | None = None
     parameters: dict = field(default_factory=dict)
+    rule_evidence: pd.DataFrame | None = None
 
     @property
     def degree(self) -> pd.Series:
@@ -70,6 +73,7 @@ class PatientGraph:
             modality_graphs={name: _submatrix(graph, positions) for name, graph in self.modality_graphs.items()},
             presence=None if self.presence is None else self.presence.loc[patients],
             parameters=dict(self.parameters),
+            rule_evidence=self.rule_evidence,
         )
 
 

@@ -11,7 +11,7 @@ import numpy as np
 
 from strataweave.errors import InputError
 
-RULES = ("intersection", "quorum", "average", "diffusion")
+RULES = ("auto", "intersection", "quorum", "average", "diffusion")
 
 
 def check_rule(rule: str, quorum: int | None, n_modalities: int) -> None:

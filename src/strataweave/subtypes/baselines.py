@@ -12,7 +12,8 @@ import warnings
 
 import numpy as np
 import scipy.sparse as sp
-from sklearn.cluster import KMeans, SpectralClustering
+from sklearn.cluster import KMeans
+from sklearn.manifold import spectral_embedding
 
 BASELINE_METHODS = {
     "spectral": "spectral clustering on the fused graph",
@@ -46,10 +47,23 @@ def concatenated_scaled(views: list[np.ndarray]) -> np.ndarray:
 
 def spectral_labels(affinity: sp.csr_matrix, count: int, random_state: int) -> np.ndarray:
     """Spectral clustering of the precomputed affinity, subtypes numbered by size."""
-    model = SpectralClustering(count, affinity="precomputed", random_state=random_state, assign_labels="kmeans")
+    return graph_partitions(affinity, [count], random_state)[count]
+
+
+def graph_partitions(affinity: sp.csr_matrix, counts, random_state: int) -> dict[int, np.ndarray]:
+    """Spectral clustering of the affinity at every count from one embedding, subtypes numbered by size.
+
+    The steps of scikit-learn's SpectralClustering (Laplacian eigenmap, then k-means on its
+    first `count` coordinates), with the eigenvectors computed once for the largest count.
+    """
+    counts = list(counts)
     with warnings.catch_warnings():
         warnings.filterwarnings("ignore", message=".*not fully connected.*")
-        return codes_by_size(model.fit_predict(affinity))
+        maps = spectral_embedding(affinity, n_components=max(counts), random_state=random_state, drop_first=False)
+    return {
+        count: codes_by_size(KMeans(count, n_init=KMEANS_STARTS, random_state=random_state).fit_predict(maps[:, :count]))
+        for count in counts
+    }
 
 
 def kmeans_labels(features: np.ndarray, count: int, random_state: int) -> np.ndarray:

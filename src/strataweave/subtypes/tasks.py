@@ -15,9 +15,9 @@ import numpy as np
 import scipy.sparse as sp
 from sklearn.exceptions import ConvergenceWarning
 
-from strataweave.factorize import JointNMF, label_patients
+from strataweave.factorize import JointNMF, label_patients, partition_factor
 from strataweave.seeding import child_seeds
-from strataweave.subtypes.baselines import kmeans_labels, spectral_labels
+from strataweave.subtypes.baselines import graph_partitions, kmeans_labels
 from strataweave.subtypes.consensus import NOT_DRAWN
 from strataweave.subtypes.settings import SweepSettings
 
@@ -72,17 +72,24 @@ def _fit_and_label(views, affinity, count, factorization, seed, warm=None):
     return model, labels, confidence, scores, unconverged
 
 
+def _start(settings: SweepSettings, partition: np.ndarray, count: int, warm=None):
+    """(W_init, H_init) of one fit: warm factors, the graph's partition, or neither (the model's own init)."""
+    if warm is not None:
+        return warm
+    if settings.start_from == "graph":
+        return partition_factor(partition, count), None
+    return None
+
+
 def fit_full_data(shared: SweepInputs, task: tuple[int, int]) -> FullFit:
     """Joint NMF on all patients at one count, plus the two baselines at that count."""
     count, seed = task
     fit_seed, spectral_seed, kmeans_seed = child_seeds(seed, 3)
+    spectral = graph_partitions(shared.affinity, [count], spectral_seed)[count]
     model, labels, confidence, scores, unconverged = _fit_and_label(
-        shared.views, shared.affinity, count, shared.factorization, fit_seed
+        shared.views, shared.affinity, count, shared.factorization, fit_seed, _start(shared.settings, spectral, count)
     )
-    baselines = {
-        "spectral": spectral_labels(shared.affinity, count, spectral_seed),
-        "kmeans": kmeans_labels(shared.concatenated, count, kmeans_seed),
-    }
+    baselines = {"spectral": spectral, "kmeans": kmeans_labels(shared.concatenated, count, kmeans_seed)}
     return FullFit(count, model, labels, confidence, scores, baselines, unconverged)
 
 
@@ -96,11 +103,12 @@ def fit_resample(shared: SweepInputs, task: tuple[int, int]) -> ResampleFit:
     """Draw patients (and features), restrict the graph to them, fit and label every count.
 
     Seed layout: child 0 draws the resample, child k seeds count k, so the draw does not
-    depend on the counts and a count's fit does not depend on the other counts.
+    depend on the counts and a count's fit does not depend on the other counts; the graph
+    partitions that start the fits (one embedding for all counts) take child max(counts) + 1.
     """
     _, seed = task
     settings, counts = shared.settings, shared.counts
-    seeds = child_seeds(seed, max(counts) + 1)
+    seeds = child_seeds(seed, max(counts) + 2)
     rng = np.random.default_rng(seeds[0])
     n_patients = shared.affinity.shape[0]
     rows = _draw(rng, n_patients, settings.fraction, max(counts) + 1)
@@ -112,13 +120,15 @@ def fit_resample(shared: SweepInputs, task: tuple[int, int]) -> ResampleFit:
     affinity = shared.affinity[rows][:, rows]
     factorization = {**shared.factorization, "n_restarts": settings.resample_restarts}
     labels = np.full((len(counts), n_patients), NOT_DRAWN, dtype=np.int16)
+    partitions = graph_partitions(affinity, counts, seeds[-1]) if settings.start_from == "graph" else {}
     unconverged = 0
     for position, count in enumerate(counts):
         warm = None
         if shared.warm_factors is not None:
             W, loadings = shared.warm_factors[count]
             warm = (W[rows], [H[:, columns[name]] for name, H in zip(views, loadings)])
-        _, drawn_labels, _, _, stopped = _fit_and_label(views, affinity, count, factorization, seeds[count], warm)
+        start = _start(settings, partitions.get(count), count, warm)
+        _, drawn_labels, _, _, stopped = _fit_and_label(views, affinity, count, factorization, seeds[count], start)
         labels[position, rows] = drawn_labels
         unconverged += stopped
     return ResampleFit(labels, unconverged)

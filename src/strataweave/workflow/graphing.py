@@ -36,6 +36,9 @@ def build_graph(flow: Workflow, prepared: dict, feedback: Feedback) -> dict:
         "embedding": spectral_embedding(affinity, n_dims=2),
         "summary": {
             "rule": graph.rule,
+            "quorum": graph.parameters["quorum"],
+            "rule_requested": settings.fusion,
+            "rule_evidence": graph.rule_evidence.to_dict(orient="records"),
             "neighbours": settings.neighbours,
             "isolated_patients": int(len(graph.isolated_patients)),
             "fallback_patients": int(len(graph.fallback_patients)),

@@ -26,7 +26,7 @@ from strataweave.graph.kernels import KERNELS
 from strataweave.graph.metrics import METRICS
 from strataweave.graph.rules import RULES
 from strataweave.subtypes.parallel import BACKENDS, ParallelSettings
-from strataweave.subtypes.settings import SweepSettings
+from strataweave.subtypes.settings import START_FROM, SweepSettings
 from strataweave.workflow import rules
 
 SAFE_NAME = r"[A-Za-z0-9][A-Za-z0-9_.-]*"
@@ -120,6 +120,10 @@ class FactorizationSettings:
     max_iter: int = key(rules.integer(1), default_of(JointNMF, "max_iter"))
     tolerance: float = key(rules.number(above=0), default_of(JointNMF, "tol"))
     init: str = key(rules.choice(*INIT_METHODS), default_of(JointNMF, "init"))
+    start_from: str = key(
+        rules.choice(*START_FROM), SweepSettings.start_from,
+        doc="graph: start each fit from the spectral partition of its fused graph; init: from `init`",
+    )
 
 
 @dataclass(frozen=True)

@@ -57,6 +57,7 @@ def sweep_settings(flow: Workflow) -> SweepSettings:
         core_threshold=subtypes.core_threshold,
         resample_restarts=resampling.restarts,
         warm_start=resampling.warm_start,
+        start_from=flow.factorization.start_from,
     )
 
 
