@@ -45,14 +45,15 @@ def _survival_table(tables: dict[str, pd.DataFrame]) -> pd.DataFrame:
 
 
 def write_tables(folder: Path, stage_results: dict, grouping: ReportedGrouping) -> None:
-    """assignments, rank_selection, survival, clinical, markers/<modality>, enrichment (.tsv)."""
+    """assignments, rank_selection, survival, clinical, markers/<modality>, enrichment (.tsv), each when it ran."""
     _table(_assignments(grouping), folder / "assignments.tsv")
     if "sweep" in stage_results:
         _table(stage_results["sweep"]["criteria"].reset_index(), folder / "rank_selection.tsv")
     evaluation = stage_results["evaluate"]
     if "survival" in evaluation:
         _table(_survival_table(evaluation["survival"]["tables"]), folder / "survival.tsv")
-    _table(evaluation["clinical"]["tables"]["association"], folder / "clinical.tsv")
+    if "clinical" in evaluation:
+        _table(evaluation["clinical"]["tables"]["association"], folder / "clinical.tsv")
     for modality, frame in evaluation.get("markers", {}).get("tables", {}).items():
         _table(frame.rename(columns={"group": "subtype"}), folder / "markers" / f"{modality}.tsv")
     if "enrichment" in evaluation:

@@ -8,6 +8,7 @@ from strataweave.caution import CAUTION
 from strataweave.data.qc import unmatched_counts
 from strataweave.evaluate.result import plain
 from strataweave.workflow.config import Workflow
+from strataweave.workflow.evaluating import NOT_RUN
 from strataweave.workflow.grouping import ReportedGrouping
 from strataweave.workflow.sweeping import chosen_sweep
 
@@ -66,6 +67,14 @@ def _clinical(part: dict) -> list[dict]:
     return [{**row, "dropped": row.get("n_missing", 0)} for row in part["summary"]["variables"]]
 
 
+def _not_run(flow: Workflow, stage_results: dict) -> dict[str, str]:
+    """Each analysis left out, by the name of its section (or markers/<modality>), with the reason."""
+    not_run = {}
+    if "graphs" in stage_results and len(flow.modalities) < 2:
+        not_run["graph_agreement"] = f"{NOT_RUN}one modality, so no pair of modality graphs to compare"
+    return {**not_run, **stage_results["evaluate"]["not_run"]}
+
+
 def build_results(
     flow: Workflow, stage_results: dict, grouping: ReportedGrouping, groups_given: bool
 ) -> dict:
@@ -88,9 +97,11 @@ def build_results(
         results["subtypes"] = sections["subtypes"]
         results["baselines"] = sections["baselines"]
     evaluation = stage_results["evaluate"]
+    results["not_run"] = _not_run(flow, stage_results)
     if "survival" in evaluation:
         results["survival"] = _survival(evaluation["survival"], flow.cohort.time_unit)
-    results["clinical"] = _clinical(evaluation["clinical"])
+    if "clinical" in evaluation:
+        results["clinical"] = _clinical(evaluation["clinical"])
     if "markers" in evaluation:
         results["markers"] = _markers(evaluation["markers"])
     if "enrichment" in evaluation:

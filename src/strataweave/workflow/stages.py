@@ -15,7 +15,7 @@ import dataclasses
 import pandas as pd
 
 from strataweave.workflow.config import Workflow
-from strataweave.workflow.evaluating import evaluate_grouping
+from strataweave.workflow.evaluating import EVALUATION_LAYOUT, evaluate_grouping
 from strataweave.workflow.graphing import build_graph
 from strataweave.workflow.grouping import analysis_patients, given_grouping
 from strataweave.workflow.loading import load_inputs
@@ -55,7 +55,8 @@ def _evaluation_parameters(flow: Workflow, hashes: dict[str, str], seed: int) ->
     settings = dataclasses.asdict(flow.evaluation)
     settings["gene_sets"] = hashes.get("gene_sets")
     cohort = {"time_column": flow.cohort.time_column, "event_column": flow.cohort.event_column}
-    return {"evaluation": settings, "cohort": cohort, "seed": seed, "groups": hashes.get("groups")}
+    return {"layout": EVALUATION_LAYOUT, "evaluation": settings, "cohort": cohort, "seed": seed,
+            "groups": hashes.get("groups")}
 
 
 def build_stages(
