@@ -128,11 +128,18 @@ def test_labels_are_identical_on_serial_and_dask_and_warm_starts_with_feature_dr
     assert (warm.resample_labels[3] != NOT_DRAWN).sum(axis=1).tolist() == [72, 72, 72]
 
 
+def test_counts_too_large_for_the_cohort_are_left_out(cohort):
+    n = len(cohort.graph.patients)
+    result = sweep_subtype_counts(cohort.views, cohort.graph, [2, n // 10 + 1], settings=replace(SETTINGS, min_size=10),
+                                  factorization=FAST_NMF, random_state=0)
+    assert result.counts == [2] and list(result.criteria.index) == [2]
+
+
 @pytest.mark.parametrize(
     "counts, settings, message",
     [
         ([1, 2], SETTINGS, "counts: found 1; expected whole numbers >= 2"),
-        ([2, 10], SweepSettings(min_size=10), "counts: found 10, which leaves fewer than min_size=10"),
+        ([10, 12], SweepSettings(min_size=10), "counts: found 10, 12, each leaving fewer than min_size=10"),
     ],
 )
 def test_bad_counts_are_input_errors(cohort, counts, settings, message):

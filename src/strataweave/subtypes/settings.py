@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import math
 from collections.abc import Iterable
 from dataclasses import asdict, dataclass
 
@@ -18,7 +19,7 @@ class SweepSettings:
 
     n_resamples: resamples per count (each draws `fraction` of the patients and, optionally,
     `feature_fraction` of each modality's features). pac_window: consensus values counted as
-    ambiguous. min_size: smallest subtype size a recommended count may have. pac_tolerance:
+    ambiguous. min_size: smallest subtype size a recommended count may have (None: `default_min_size` of the cohort). pac_tolerance:
     PAC differences below it count as ties (see recommend.RULE). core_threshold: mean
     consensus with the own subtype above which a patient is core. user_count: a count fixed
     by the user instead of the rule. resample_restarts: NMF restarts per resample (the lowest
@@ -38,7 +39,7 @@ class SweepSettings:
     feature_fraction: float = 1.0
     pac_window: tuple[float, float] = (0.1, 0.9)
     pac_tolerance: float = 0.01
-    min_size: int = 10
+    min_size: int | None = None
     core_threshold: float = 0.8
     user_count: int | None = None
     resample_restarts: int = 1
@@ -51,7 +52,8 @@ class SweepSettings:
             value = getattr(self, name)
             if not 0.0 < value <= 1.0:
                 raise InputError(f"{name}: found {value}; expected a fraction in (0, 1]")
-        for name, lowest in (("n_resamples", 2), ("min_size", 1), ("resample_restarts", 1)):
+        checked = [("n_resamples", 2), ("resample_restarts", 1)] + ([("min_size", 1)] if self.min_size is not None else [])
+        for name, lowest in checked:
             value = getattr(self, name)
             if isinstance(value, bool) or not isinstance(value, int) or value < lowest:
                 raise InputError(f"{name}: found {value!r}; expected a whole number >= {lowest}")
@@ -70,16 +72,27 @@ class SweepSettings:
 
 
 def check_counts(counts: Iterable[int], n_patients: int, min_size: int) -> list[int]:
-    """Sorted distinct subtype counts, each >= 2 and able to give every subtype `min_size` patients."""
+    """Sorted distinct subtype counts >= 2, without those that cannot give every subtype `min_size` patients.
+
+    A workflow written for many cohorts may list counts too large for a small one: those are
+    left out (the result's `counts` shows what was swept); only a list with none left is an error.
+    """
     found = list(counts)
     if not found:
         raise InputError("counts: found none; expected subtype counts such as 2..8")
     for count in found:
         if isinstance(count, bool) or not isinstance(count, int) or count < 2:
             raise InputError(f"counts: found {count!r}; expected whole numbers >= 2")
-        if count * min_size > n_patients:
-            raise InputError(
-                f"counts: found {count}, which leaves fewer than min_size={min_size} patients per subtype "
-                f"among {n_patients}; expected counts up to {n_patients // min_size}"
-            )
-    return sorted(set(found))
+    feasible = sorted({count for count in found if count * min_size <= n_patients})
+    if not feasible:
+        raise InputError(
+            f"counts: found {', '.join(map(str, sorted(set(found))))}, each leaving fewer than min_size={min_size} "
+            f"patients per subtype among {n_patients}; expected counts up to {n_patients // min_size}"
+        )
+    return feasible
+
+
+def default_min_size(n_patients: int) -> int:
+    """Smallest subtype a recommended count may have when the user sets none: 2 % of the
+    patients, at least 5 (a rule of thumb, common practice: smaller groups are anecdotes)."""
+    return max(5, math.ceil(0.02 * n_patients))

@@ -25,7 +25,7 @@ from strataweave.subtypes.criteria import cophenetic_correlation, pac, resample_
 from strataweave.subtypes.parallel import ParallelSettings, TaskRunner
 from strataweave.subtypes.recommend import recommend_count
 from strataweave.subtypes.result import SweepResult
-from strataweave.subtypes.settings import SweepSettings, check_counts
+from strataweave.subtypes.settings import SweepSettings, check_counts, default_min_size
 from strataweave.subtypes.tasks import SweepInputs, fit_full_data, fit_resample
 
 
@@ -92,6 +92,8 @@ def sweep_subtype_counts(
     n_patients = next(iter(arrays.values())).shape[0]
     patients = patients if patients is not None else pd.RangeIndex(n_patients, name="patient")
     affinity = _affinity(graph, patients, n_patients)
+    if settings.min_size is None:
+        settings = replace(settings, min_size=default_min_size(n_patients))
     counts = check_counts(counts, n_patients, settings.min_size)
     factorization = dict(factorization or {})
     for fixed in ("n_components", "random_state"):

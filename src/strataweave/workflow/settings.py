@@ -138,7 +138,10 @@ class SubtypeSettings:
         rules.either(rules.choice("recommended"), rules.integer(2), "'recommended' or an integer >= 2"),
         "recommended",
     )
-    min_size: int = key(rules.integer(1), SweepSettings.min_size, doc="never recommend a count with a smaller subtype")
+    min_size: int | None = key(
+        rules.integer(1), SweepSettings.min_size,
+        doc="never recommend a count with a smaller subtype (default: 2 % of the patients, at least 5)",
+    )
     pac_window: tuple[float, ...] = key(
         rules.list_of(rules.number(0, 1), "two numbers between 0 and 1, lower first"), SweepSettings.pac_window
     )
