@@ -10,7 +10,7 @@ from sklearn.exceptions import ConvergenceWarning
 
 from strataweave.factorize import JointNMF
 
-from conftest import planted_views
+from conftest import knn_affinity, planted_views
 
 pytestmark = pytest.mark.filterwarnings("ignore::sklearn.exceptions.ConvergenceWarning")
 
@@ -176,3 +176,49 @@ def test_default_modality_weights_are_the_balance_the_model_fits_with(cohort):
     # the formula of the issue: alpha_v = 1 / ||X_v||_F^2 over the observed entries
     expected = [1.0 / np.nansum(np.asarray(v, dtype=float) ** 2) for v in views]
     assert np.allclose(default_modality_weights(views), expected, rtol=1e-12)
+
+
+def test_float32_stays_float32_in_every_step(cohort, monkeypatch):
+    # dtype="float32" must not be upcast by any internal step (only the scalar objective is
+    # accumulated in float64): spy on the products and both inner updates.
+    from strataweave.factorize import updates
+
+    views, _, affinity = cohort
+    views = [v.copy() for v in views]
+    views[1][:10] = np.nan
+    seen = []
+    for owner, name in ((updates, "data_times_loadings"), (updates.PatientStep, "run"), (updates.LoadingStep, "run")):
+        original = getattr(owner, name)
+
+        def spy(*args, _original=original, **kwargs):
+            result = _original(*args, **kwargs)
+            parts = result if isinstance(result, (list, tuple)) else [result]
+            seen.extend(a.dtype for a in parts if isinstance(a, np.ndarray))
+            return result
+
+        monkeypatch.setattr(owner, name, spy)
+    model = JointNMF(3, graph_weight=1.0, max_iter=20, dtype="float32", random_state=0).fit(views, affinity)
+    assert seen and set(seen) == {np.dtype(np.float32)}
+    assert model.patient_factor_.dtype == np.float32
+    assert all(H.dtype == np.float32 for H in model.components_)
+
+
+def test_stopping_rule_measures_decreases_against_the_data_scale(cohort):
+    # Converged = 3 decreases in a row below tol x sum_v alpha_v ||X_v||^2 (the zero model's
+    # objective, = number of views with the default weights), with or without the graph.
+    views, _, affinity = cohort
+    for weight in (0.0, 1.0, 5.0):
+        model = JointNMF(3, graph_weight=weight, tol=1e-4, random_state=0).fit(views, affinity)
+        steps = -np.diff(model.objective_)
+        assert model.n_iter_ < 300
+        assert np.all(steps[-3:] < 1e-4 * len(views))
+        assert not np.all(steps[-4:-1] < 1e-4 * len(views))
+
+
+def test_fits_with_the_graph_converge_on_every_cohort_size():
+    # The same rule at every size: fits with the graph term end by the tolerance, not max_iter.
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", ConvergenceWarning)
+        for n_patients in (40, 150, 600):
+            views, _ = planted_views(n_patients=n_patients, noise=0.05, seed=n_patients)
+            JointNMF(4, graph_weight=1.0, n_restarts=2, random_state=0).fit(views, knn_affinity(views))

@@ -15,6 +15,7 @@ from strataweave.factorize.smoothness import GraphSmoothness, graph_affinity
 from strataweave.factorize.updates import (
     data_times_loadings,
     iterate,
+    projection_rule,
     single_threaded_blas,
     update_loadings,
     update_patient_factor,
@@ -39,8 +40,10 @@ class JointNMF(BaseEstimator):
     Laplacian of `graph`, loadings normalised to sum_v alpha_v ||H_v[k]||^2 = 1 and
     lambda = graph_weight * n_patients / sum(graph) (so graph_weight is free of cohort size).
 
-    Parameters: `n_components` (rank); `graph_weight`; `max_iter`; `tol` (relative decrease
-    of the objective, below it for 3 iterations in a row = converged); `init` ("nndsvda",
+    Parameters: `n_components` (rank); `graph_weight`; `max_iter`; `tol` (decrease of the
+    objective in one iteration as a share of its scale sum_v alpha_v ||X_v||^2, the objective
+    of the zero model: below it for 3 iterations in a row = converged, the same rule with or
+    without the graph and at every cohort size); `init` ("nndsvda",
     "nndsvd" or "random"; restarts after the first are random); `n_restarts` (the lowest
     objective wins); `random_state`; `dtype` ("float64" or "float32"); `modality_weights`
     (alpha_v, default 1 / ||X_v||_F^2); `inner_updates` (most cheap inner updates per outer
@@ -99,14 +102,15 @@ class JointNMF(BaseEstimator):
         """W minimising the objective with every H_v fixed (multiplicative NNLS)."""
         P = data_times_loadings(blocks, loadings, (n, self.n_components))
         start = np.ones_like(P)
-        return update_patient_factor(start, P, blocks, loadings, smoothness, int(self.transform_max_iter), SETTLED)
+        return update_patient_factor(start, P, blocks, loadings, smoothness, int(self.transform_max_iter),
+                                     projection_rule(SETTLED))
 
     def _project_loadings(self, block, W):
         """H_v minimising the data term of one modality with W fixed."""
         W_rows = block.restrict(W)
         start = np.ones((self.n_components, block.data.shape[1]), dtype=W.dtype)
         WtX, WtW = W_rows.T @ block.data, W_rows.T @ W_rows
-        return update_loadings(start, block, W_rows, WtX, WtW, None, int(self.transform_max_iter), SETTLED)
+        return update_loadings(start, block, W_rows, WtX, WtW, None, int(self.transform_max_iter), projection_rule(SETTLED))
 
     def fit(self, views, graph=None, mask=None, *, W_init=None, H_init=None):
         """Fit to `views` (list or dict of patients x features; all-NaN rows = missing modality).

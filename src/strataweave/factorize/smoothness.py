@@ -58,12 +58,18 @@ class GraphSmoothness:
         self.degree = degrees(self.affinity).astype(dtype)[:, None]
         total = float(self.degree.sum())
         self.strength = graph_weight * n_patients / total if total > 0 else 0.0
+        # built once: lambda (D + A) for the numerator, 2 lambda D for the denominator
+        self.symmetric = (self.strength * (self.affinity + sp.diags(self.degree.ravel()))).tocsr().astype(dtype)
+        self.push_diagonal = (2.0 * self.strength * self.degree).astype(dtype)
 
     def per_component(self, W: np.ndarray) -> np.ndarray:
         """w_k^T L w_k for each column k of W (without lambda)."""
         return np.einsum("ik,ik->k", W, self.degree * W - self.affinity @ W)
 
-    def update_parts(self, W: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """(lambda (D + A) W, 2 lambda D W): the graph's share of the W update's numerator and denominator."""
-        degree_part = self.strength * (self.degree * W)
-        return degree_part + self.strength * (self.affinity @ W), degree_part + degree_part
+    def symmetric_product(self, W: np.ndarray) -> np.ndarray:
+        """lambda (D + A) W: the graph's share of the W update's numerator (one sparse product)."""
+        return self.symmetric @ W
+
+    def ridge(self, W: np.ndarray, symmetric_product: np.ndarray) -> np.ndarray:
+        """lambda w_k^T L w_k for each column k, from lambda (D + A) W (as 2 lambda D W - that)."""
+        return np.einsum("ik,ik->k", W, self.push_diagonal * W - symmetric_product)
