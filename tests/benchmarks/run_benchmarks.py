@@ -1,7 +1,7 @@
 """Run every benchmark script in this folder (bench_*.py) one after another.
 
 Usage: python tests/benchmarks/run_benchmarks.py [NAME ...]
-NAME picks benchmarks by substring (e.g. `graph`); no NAME runs them all. Each script
+NAME picks benchmarks by substring (e.g. `graph`, `panel` for the validity panel); no NAME runs them all. Each script
 prints its own table. Benchmarks measure speed and memory targets; they are never part of
 the default test run.
 """
@@ -19,7 +19,7 @@ def main(argv: list[str]) -> int:
     if any(arg in ("-h", "--help") for arg in argv):
         print(__doc__)
         return 0
-    scripts = sorted(HERE.glob("bench_*.py"))
+    scripts = sorted(HERE.glob("bench_*.py")) + [HERE / "validity" / "panel.py"]
     if argv:
         scripts = [s for s in scripts if any(name in s.stem for name in argv)]
     failed = 0

@@ -111,7 +111,19 @@ RESULTS: dict[str, Entry] = {
     "graph": _section(
         "the fused patient-similarity graph",
         {
-            "rule": Entry("text", "fusion rule: intersection | quorum | average | diffusion"),
+            "rule": Entry("text", "fusion rule used: intersection | quorum | average | diffusion"),
+            "quorum": Entry("integer", "modalities that had to agree (rule quorum)", required=False, nullable=True),
+            "rule_requested": Entry("text", "rule asked for: auto (chosen from the data) or a named rule", required=False),
+            "rule_evidence": _rows(
+                "each candidate fusion rule with the share of its edge weight the modalities confirm",
+                {
+                    "rule": Entry("text", "candidate rule"),
+                    "quorum": Entry("integer", "candidate quorum", nullable=True),
+                    "confirmed_share": Entry("number", "mean over modalities of the confirmed share of edge weight"),
+                    "chosen": Entry("flag", "the candidate used"),
+                },
+                required=False,
+            ),
             "neighbours": Entry("integer", "neighbours kept per patient"),
             "isolated_patients": Entry("integer", "patients left without an edge by the rule"),
             "fallback_patients": Entry("integer", "patients given fallback edges from the average graph"),

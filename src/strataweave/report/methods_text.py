@@ -80,7 +80,7 @@ def methods_paragraph(results: dict[str, Any]) -> tuple[str, list[str]]:
                  f"{kernel}{metric}{cite('wang2014')}")
         sentences.append(
             (f"From the one modality, {built}; " if single else
-             f"Per modality, {built}, and the graphs were fused by the {graph['rule']} rule; ")
+             f"Per modality, {built}, and the graphs were fused by the {_fusion_phrase(graph)}; ")
             + (f"{graph['fallback_patients']} patients left without an edge were linked to their nearest "
                "neighbours in the average graph." if graph["fallback_patients"] else
                "no patient was left without an edge."))
@@ -99,8 +99,10 @@ def methods_paragraph(results: dict[str, Any]) -> tuple[str, list[str]]:
         factorisation = (f"A non-negative matrix factorisation of the omics layer{cite('lee1999')} was" if single
                          else "A joint non-negative matrix factorisation shared one patient factor across modalities"
                          f"{cite('lee1999')} and was")
+        start = (f" Each fit started from the spectral clustering of its own (resampled) {graph_name} at that count"
+                 f"{cite('luxburg2007')}." if _get(p, "factorization.start_from") == "graph" else "")
         sentences.append(
-            f"{factorisation} regularised by the {graph_name}{cite('cai2011')}{weight}. "
+            f"{factorisation} regularised by the {graph_name}{cite('cai2011')}{weight}.{start} "
             f"Subtype counts {format_value(selection['counts'])} were compared by consensus over {resamples}"
             f"{cite('monti2003')}, using the proportion of ambiguous clustering{pac}{cite('senbabaoglu2014')}, "
             f"the cophenetic correlation{cite('brunet2004')}, the eigengap of the {graph_name}{cite('luxburg2007')} "
@@ -144,3 +146,14 @@ def methods_paragraph(results: dict[str, Any]) -> tuple[str, list[str]]:
     if seed is not None:
         sentences.append(f"All random draws derive from the seed {seed}.")
     return " ".join(sentences), cited
+
+
+def _fusion_phrase(graph: dict) -> str:
+    """The fusion rule used, and how it was chosen when the data chose it."""
+    rule = graph["rule"] + (f" rule with a quorum of {graph['quorum']}" if graph.get("quorum") else " rule")
+    if graph.get("rule_requested") != "auto":
+        return rule
+    share = next((row["confirmed_share"] for row in graph.get("rule_evidence", []) if row.get("chosen")), None)
+    confirmed = f" ({share:.0%} of its edge weight)" if isinstance(share, float) else ""
+    return (f"{rule}, chosen from the data among the intersection, every quorum and the average as the graph "
+            f"whose edges the modalities themselves confirm most{confirmed}")

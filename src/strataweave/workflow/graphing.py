@@ -12,6 +12,10 @@ from strataweave.workflow.preparing import normalised_views
 from strataweave.workflow.progress import Feedback
 
 
+#: The columns of the fusion-rule evidence written to results.json (per-modality shares stay in the graph).
+EVIDENCE_COLUMNS = ("rule", "quorum", "confirmed_share", "fallback_patients", "chosen")
+
+
 def build_graph(flow: Workflow, prepared: dict, feedback: Feedback) -> dict:
     """The fused affinity on the analysis patients (their order), its diagnostics and a 2-D embedding."""
     settings = flow.graph
@@ -38,7 +42,7 @@ def build_graph(flow: Workflow, prepared: dict, feedback: Feedback) -> dict:
             "rule": graph.rule,
             "quorum": graph.parameters["quorum"],
             "rule_requested": settings.fusion,
-            "rule_evidence": graph.rule_evidence.to_dict(orient="records"),
+            "rule_evidence": graph.rule_evidence[list(EVIDENCE_COLUMNS)].to_dict(orient="records"),
             "neighbours": settings.neighbours,
             "isolated_patients": int(len(graph.isolated_patients)),
             "fallback_patients": int(len(graph.fallback_patients)),
