@@ -12,12 +12,12 @@ with the majoriser noted in `smoothness`), so J never increases.
 
 Speed (Gillis & Glineur 2012): each outer iteration makes two passes over the data, X H^T
 for the W step and W^T X for the H step, and repeats the cheap inner updates on them until
-they stop moving (`inner_settled`) or `n_updates` times. What an inner update needs that
-stays fixed while the other factor does is built once per outer iteration, so an inner
-update is a few in-place operations on preallocated buffers: for W, one batched product
-with each patient's own Gram matrix (its modalities' weighted H_v H_v^T plus the graph's
-diagonal) and one sparse graph product, whichever modalities each patient has; for H, one
-small product per modality and one set of element-wise operations for all modalities.
+they stop moving (`InnerRule`) or `n_updates` times. What an inner update needs that stays
+fixed while the other factor does is built once per outer iteration, so an inner update is
+a few in-place operations on preallocated buffers: for W, one product with the Gram matrix
+of the loadings (each patient's own, with the graph's diagonal, when some patients miss a
+modality) and one sparse graph product; for H, one small product per modality and one set
+of element-wise operations for all modalities together.
 """
 
 from __future__ import annotations
