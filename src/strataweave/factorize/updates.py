@@ -145,7 +145,8 @@ class PatientStep:
         self.masked = [v for v, b in enumerate(blocks) if b.entry_mask is not None]
         self.weights = np.array([blocks[v].weight for v in self.full], dtype=dtype)
         # one Gram matrix for all patients when every modality without an entry mask has them
-        # all: W G (+ 2 lambda D W) is then 6-10x faster than the row-by-row product
+        # all: W G (+ 2 lambda D W) is then 2-3x faster than the row-by-row product (24 vs 64 us
+        # at 2,000 patients, rank 6)
         self.per_patient = any(blocks[v].rows is not None for v in self.full)
         if self.per_patient:
             self.presence = np.zeros((n_patients, len(self.full)), dtype=dtype)
