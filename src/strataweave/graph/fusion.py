@@ -114,8 +114,8 @@ def fuse_modalities(
         return _sparsified_with_fallback(left, right, fused, values, n, n_neighbours)
 
     requested = rule
-    candidates_tried = rule_candidates(len(names)) if rule == "auto" else [(rule, quorum)]
-    rule, quorum, (weights, fallback), evidence = choose_rule(candidates_tried, build, confirmed, names)
+    rules_tried = rule_candidates(len(names)) if rule == "auto" else [(rule, quorum)]
+    rule, quorum, (weights, fallback), evidence = choose_rule(rules_tried, build, confirmed, names)
     keep = weights > 0
     return PatientGraph(
         patients=patients,

@@ -35,17 +35,17 @@ def choose_rule(candidates: list[tuple[str, int | None]], build, confirmed: np.n
 
     `build(rule, quorum)` returns (edge weights per candidate pair, fallback patient mask).
     """
-    rows, built = [], []
-    for rule, quorum in candidates:
+    rows, best, best_graph = [], -1, None
+    for position, (rule, quorum) in enumerate(candidates):
         weights, fallback = build(rule, quorum)
         shares = confirmed_shares(weights, confirmed)
-        built.append((weights, fallback))
+        if best < 0 or shares.mean() > rows[best]["confirmed_share"]:  # a tie keeps the stricter rule
+            best, best_graph = position, (weights, fallback)
         rows.append({"rule": rule, "quorum": quorum, "confirmed_share": float(shares.mean()),
                      **{f"confirmed_by_{name}": float(s) for name, s in zip(names, shares)},
                      "fallback_patients": int(fallback.sum())})
     evidence = pd.DataFrame(rows)
     evidence["quorum"] = pd.Series([quorum for _, quorum in candidates], dtype=object)  # None or a whole number
-    best = int(np.argmax(evidence["confirmed_share"].to_numpy()))
     evidence["chosen"] = np.arange(len(rows)) == best
     rule, quorum = candidates[best]
-    return rule, quorum, built[best], evidence
+    return rule, quorum, best_graph, evidence

@@ -19,8 +19,9 @@ class SweepSettings:
 
     n_resamples: resamples per count (each draws `fraction` of the patients and, optionally,
     `feature_fraction` of each modality's features). pac_window: consensus values counted as
-    ambiguous. min_size: smallest subtype size a recommended count may have (None: `default_min_size` of the cohort). pac_tolerance:
-    PAC differences below it count as ties (see recommend.RULE). core_threshold: mean
+    ambiguous. min_size: smallest subtype size a recommended count may have (None:
+    `default_min_size` of the cohort). pac_tolerance: PAC differences below it count as ties
+    (see recommend.RULE). core_threshold: mean
     consensus with the own subtype above which a patient is core. user_count: a count fixed
     by the user instead of the rule. resample_restarts: NMF restarts per resample (the lowest
     objective wins). One by default: with the graph start, random restarts that reach a lower

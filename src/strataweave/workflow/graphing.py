@@ -41,7 +41,7 @@ def build_graph(flow: Workflow, prepared: dict, feedback: Feedback) -> dict:
         "summary": {
             "rule": graph.rule,
             "quorum": graph.parameters["quorum"],
-            "rule_requested": settings.fusion,
+            "rule_requested": graph.parameters["rule_requested"],
             "rule_evidence": graph.rule_evidence[list(EVIDENCE_COLUMNS)].to_dict(orient="records"),
             "neighbours": settings.neighbours,
             "isolated_patients": int(len(graph.isolated_patients)),

@@ -69,24 +69,24 @@ def nutrimouse(target: str):
     return views, _continuous(views), pd.Series(pd.factorize(labels)[0], index=next(iter(views.values())).index)
 
 
-def breast_cancer_wisconsin():
-    data = sklearn.datasets.load_breast_cancer()
-    X = data.data
-    views = _frames({"mean": X[:, :10], "error": X[:, 10:20], "worst": X[:, 20:]}, "BW")
+def _bundled(data, bands: dict[str, slice], prefix: str):
+    """A scikit-learn bundled set with its feature columns cut into named views."""
+    views = _frames({name: data.data[:, band] for name, band in bands.items()}, prefix)
     return views, _continuous(views), pd.Series(data.target, index=next(iter(views.values())).index)
+
+
+def breast_cancer_wisconsin():
+    bands = {"mean": slice(0, 10), "error": slice(10, 20), "worst": slice(20, 30)}
+    return _bundled(sklearn.datasets.load_breast_cancer(), bands, "BW")
 
 
 def wine():
-    data = sklearn.datasets.load_wine()
-    views = _frames({"first": data.data[:, :7], "second": data.data[:, 7:]}, "WN")
-    return views, _continuous(views), pd.Series(data.target, index=next(iter(views.values())).index)
+    return _bundled(sklearn.datasets.load_wine(), {"first": slice(0, 7), "second": slice(7, 13)}, "WN")
 
 
 def digits_three_bands():
-    data = sklearn.datasets.load_digits()
-    X = data.data
-    views = _frames({"top": X[:, :24], "middle": X[:, 24:48], "bottom": X[:, 48:]}, "DG")
-    return views, _continuous(views), pd.Series(data.target, index=next(iter(views.values())).index)
+    bands = {"top": slice(0, 24), "middle": slice(24, 48), "bottom": slice(48, 64)}
+    return _bundled(sklearn.datasets.load_digits(), bands, "DG")
 
 
 def breast_cancer_er():
