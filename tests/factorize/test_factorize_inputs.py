@@ -49,11 +49,19 @@ def test_nan_where_mask_says_observed(small):
         JointNMF(2, max_iter=5).fit(views, graph, mask=[np.ones((30, 12), dtype=bool), None])
 
 
-@pytest.mark.parametrize("rank", [10, 0])
-def test_rank_must_be_below_smallest_dimension(small, rank):
+@pytest.mark.parametrize("rank", [30, 0])
+def test_rank_must_be_below_the_patient_count(small, rank):
     views, graph = small
-    with pytest.raises(InputError, match=rf"n_components: found {rank}; expected 1 <= rank < 10"):
+    with pytest.raises(InputError, match=rf"n_components: found {rank}; expected 1 <= rank <= 22"):
         _fit(views, graph, n_components=rank)
+
+
+def test_rank_may_exceed_the_narrowest_view(small):
+    views, graph = small
+    narrow = [views[0][:, :3], views[1]]  # 3 features, rank 5
+    model = JointNMF(5, max_iter=40).fit(narrow, graph)
+    assert model.components_[0].shape == (5, 3)
+    assert model.objective_[-1] < model.objective_[0]
 
 
 def test_graph_size_must_match_patients(small):

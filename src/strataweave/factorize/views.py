@@ -249,10 +249,12 @@ def prepare_views(
             "expected each patient observed in at least one modality"
         )
     if n_components is not None:
-        smallest = min([n_patients] + [b.data.shape[1] for b in blocks])
-        if not 1 <= n_components < smallest:
+        # The rank is bounded by the concatenation (its SVD starts the fit), not by the
+        # narrowest view: a view of 6 features may have loadings on 10 components.
+        limit = min(n_patients - 1, sum(b.data.shape[1] for b in blocks))
+        if not 1 <= n_components <= limit:
             raise InputError(
-                f"n_components: found {n_components}; expected 1 <= rank < {smallest}, "
-                "the smallest of the patient count and each view's feature count"
+                f"n_components: found {n_components}; expected 1 <= rank <= {limit}, "
+                "below the patient count and at most the features of all views together"
             )
     return PreparedViews(blocks, n_patients, patients, columns)
