@@ -47,7 +47,8 @@ def test_one_row_per_count_and_matching_shapes(result, cohort, ticks):
     assert ticks == list(range(1, planned_tasks(COUNTS, SETTINGS) + 1))
     assert list(result.criteria.index) == COUNTS
     assert list(result.criteria.columns) == [
-        "pac", "cophenetic", "silhouette", "eigengap", "reconstruction_error", "smallest_subtype", "stability"
+        "pac", "cophenetic", "silhouette", "eigengap", "reconstruction_error", "smallest_subtype", "stability",
+        "modularity",
     ]
     for k in COUNTS:
         consensus = result.consensus[k]

@@ -10,6 +10,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 from sklearn.cluster import KMeans
+from sklearn.metrics.pairwise import euclidean_distances
 
 from strataweave.errors import InputError
 
@@ -49,6 +50,20 @@ def _by_size(labels: np.ndarray, scores: np.ndarray):
 def _margin(scores: np.ndarray) -> np.ndarray:
     top_two = -np.sort(-scores, axis=1)[:, :2]
     return top_two[:, 0] - top_two[:, 1]
+
+
+def scores_for_labels(W: np.ndarray, labels: np.ndarray, n_subtypes: int) -> tuple[np.ndarray, np.ndarray]:
+    """(confidence, scores) of patients in given subtypes, as `label_patients` makes them.
+
+    The subtype centres are the means of the unit-length rows of W in each subtype, so a
+    partition found elsewhere (a graph, another labeller) gets scores on the patient factor.
+    """
+    unit = _unit_rows(np.asarray(W, dtype=np.float64), 2)
+    membership = np.zeros((unit.shape[0], n_subtypes))
+    membership[np.arange(unit.shape[0]), labels] = 1.0
+    centres = (membership.T @ unit) / np.maximum(membership.sum(axis=0), 1.0)[:, None]
+    scores = np.clip(1.0 - euclidean_distances(unit, centres) / MAX_UNIT_DISTANCE, 0.0, 1.0)
+    return _margin(scores), scores
 
 
 def label_patients(W, n_subtypes: int, method: str = "kmeans", random_state=None):

@@ -1,6 +1,6 @@
 """graph layer (see DESIGN.md): sparse patient-similarity graphs per modality and their fusion."""
 
-from strataweave.graph.diagnostics import graph_diagnostics, modality_agreement, neighbour_purity
+from strataweave.graph.diagnostics import graph_diagnostics, modality_agreement, modularity, neighbour_purity
 from strataweave.graph.fusion import fuse_modalities
 from strataweave.graph.laplacian import laplacian
 from strataweave.graph.patient_graph import PatientGraph
@@ -13,6 +13,7 @@ __all__ = [
     "graph_diagnostics",
     "laplacian",
     "modality_agreement",
+    "modularity",
     "neighbour_purity",
     "spectral_embedding",
 ]

@@ -7,6 +7,7 @@ import pandas as pd
 import scipy.sparse as sp
 from scipy.sparse.csgraph import connected_components
 
+from strataweave.errors import InputError
 from strataweave.graph.patient_graph import PatientGraph
 
 
@@ -70,3 +71,24 @@ def neighbour_purity(affinity: sp.spmatrix, labels) -> float:
     count = np.diff(affinity.indptr)
     has = count > 0
     return float(np.mean(same[has] / count[has])) if has.any() else float("nan")
+
+
+def modularity(affinity: sp.spmatrix, labels) -> float:
+    """Newman's modularity of a partition on a weighted graph (Newman 2006, PNAS).
+
+    Q = sum over groups of (within-group share of the edge weight) - (group's share of the
+    total degree)^2: how much more weight the groups keep inside than a random graph with
+    the same degrees would. 0 for one group; higher is a better fit of partition to graph.
+    """
+    affinity = sp.csr_matrix(affinity, dtype=np.float64)
+    _, codes = np.unique(np.asarray(labels), return_inverse=True)
+    if codes.size != affinity.shape[0]:
+        raise InputError(f"labels: found {codes.size}; expected one per patient ({affinity.shape[0]})")
+    degree = np.asarray(affinity.sum(axis=1)).ravel()
+    total = degree.sum()
+    if total <= 0:
+        return 0.0
+    membership = sp.csr_matrix((np.ones(codes.size), (np.arange(codes.size), codes)))
+    within = (membership.T @ affinity @ membership).diagonal()
+    group_degree = membership.T @ degree
+    return float(within.sum() / total - np.sum((group_degree / total) ** 2))

@@ -146,7 +146,7 @@ RESULTS: dict[str, Entry] = {
             "criteria": Entry(
                 "series",
                 "criterion name -> one value per count (null where undefined), e.g. pac, "
-                "cophenetic, silhouette, eigengap, reconstruction_error, smallest_size, stability",
+                "cophenetic, silhouette, eigengap, reconstruction_error, smallest_size, stability, modularity",
             ),
             "higher_is_better": Entry(
                 "mapping", "criterion name -> true / false / null (no direction); drawn as a hint", required=False

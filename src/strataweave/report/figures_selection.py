@@ -28,6 +28,7 @@ CRITERION_UNITS = {
     "smallest_size": "smallest subtype (patients)",
     "smallest_subtype": "smallest subtype (patients)",
     "stability": "stability (mean ARI)",
+    "modularity": "modularity on the fused graph",
 }
 
 

@@ -21,6 +21,8 @@ REFERENCES: dict[str, str] = {
     "brunet2004": "Brunet JP, Tamayo P, Golub TR, Mesirov JP. Metagenes and molecular pattern discovery using "
                   "matrix factorization. Proc Natl Acad Sci USA 2004;101:4164-4169.",
     "luxburg2007": "von Luxburg U. A tutorial on spectral clustering. Stat Comput 2007;17:395-416.",
+    "newman2006": "Newman MEJ. Modularity and community structure in networks. "
+                  "Proc Natl Acad Sci USA 2006;103:8577-8582.",
     "hubert1985": "Hubert L, Arabie P. Comparing partitions. J Classif 1985;2:193-218.",
     "kaplan1958": "Kaplan EL, Meier P. Nonparametric estimation from incomplete observations. "
                   "J Am Stat Assoc 1958;53:457-481.",
@@ -37,6 +39,27 @@ REFERENCES: dict[str, str] = {
     "kruskal1952": "Kruskal WH, Wallis WA. Use of ranks in one-criterion variance analysis. "
                    "J Am Stat Assoc 1952;47:583-621.",
 }
+
+
+PARTITION_WORDS = {
+    "joint_model": "the joint factorisation's labels (k-means on the unit-length rows of the patient factor)",
+    "fused_graph": "the spectral clustering of the {graph}",
+    "concatenation": "the spectral clustering of the concatenated scaled modalities (a k-nearest-neighbour graph "
+                     "with the mean degree of the {graph})",
+}
+
+
+def _partition_phrase(selection: dict, count: int, graph_name: str, cite) -> str:
+    """Which candidate partition gave the subtypes, and the rule that chose it."""
+    rows = {row["count"]: row for row in selection.get("partitions", [])}
+    sources = [key for key in PARTITION_WORDS if f"modularity_{key}" in rows.get(count, {})]
+    taken = rows.get(count, {}).get("source", "joint_model")
+    if len(sources) < 2:
+        return f"The subtypes were {PARTITION_WORDS[taken].format(graph=graph_name)}."
+    words = ", ".join(PARTITION_WORDS[key].format(graph=graph_name) for key in sources)
+    return (f"At each count, and in every resample, the subtypes were the partition with the highest modularity on "
+            f"the {graph_name}{cite('newman2006')} among {words}; at the chosen count this was "
+            f"{PARTITION_WORDS[taken].format(graph=graph_name).split(' (')[0]}.")
 
 
 def _get(parameters: dict[str, Any], path: str) -> Any:
@@ -107,6 +130,7 @@ def methods_paragraph(results: dict[str, Any]) -> tuple[str, list[str]]:
             f"{cite('monti2003')}, using the proportion of ambiguous clustering{pac}{cite('senbabaoglu2014')}, "
             f"the cophenetic correlation{cite('brunet2004')}, the eigengap of the {graph_name}{cite('luxburg2007')} "
             "and further criteria listed in the report.")
+        sentences.append(_partition_phrase(selection, results["subtype_count"], graph_name, cite))
         chosen = "fixed by the user" if selection.get("overridden") else "recommended"
         reason = selection["reason"].rstrip()
         sentences.append(f"{results['subtype_count']} subtypes were used ({chosen}). Reason: {reason}"

@@ -22,6 +22,7 @@ HIGHER_IS_BETTER = {
     "reconstruction_error": None,  # falls with every added component: read its elbow, not its size
     "smallest_subtype": None,
     "stability": True,
+    "modularity": True,
 }
 
 
@@ -53,6 +54,8 @@ class SweepResult:
     baseline_labels: count -> patients x baseline method labels.
     baselines: one row per (count, method): ARI and NMI against the joint subtypes,
     silhouette on the fused graph embedding, smallest subtype.
+    partitions: one row per count: the candidate partition taken (`source`, see
+    `partitions.PARTITION_SOURCES`) and every candidate's modularity on the fused graph.
     flow: how subtypes split from each count to the next one swept.
     models: count -> the full-data JointNMF. unconverged: fits that stopped at max_iter.
     """
@@ -65,6 +68,7 @@ class SweepResult:
     resample_labels: dict[int, np.ndarray]
     baseline_labels: dict[int, pd.DataFrame]
     baselines: pd.DataFrame
+    partitions: pd.DataFrame
     flow: pd.DataFrame
     models: dict[int, JointNMF]
     recommendation: Recommendation
@@ -109,6 +113,10 @@ class SweepResult:
                 "flow": [
                     {key: json_number(row[key]) for key in ("count", "source", "target", "patients")}
                     for row in self.flow.to_dict("records")
+                ],
+                "partitions": [
+                    {"count": int(k), **{key: json_number(v) if key != "source" else v for key, v in row.items()}}
+                    for k, row in self.partitions.to_dict("index").items()
                 ],
                 "settings": self.settings.to_dict(),
                 "unconverged_fits": int(self.unconverged),

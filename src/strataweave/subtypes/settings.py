@@ -8,9 +8,11 @@ from dataclasses import asdict, dataclass
 
 from strataweave.errors import InputError
 from strataweave.subtypes.criteria import check_window
+from strataweave.subtypes.partitions import PARTITION_SOURCES
 
 
 START_FROM = ("graph", "init")
+LABELS_FROM = ("best_fit", *PARTITION_SOURCES)
 
 
 @dataclass(frozen=True)
@@ -33,6 +35,9 @@ class SweepSettings:
     fused graph at that count, "init" from the factorisation's own `init`. The graph start
     puts the NMF in the basin of the partition the modalities agree on and lets the data
     term refine it; restarts after the first are random either way.
+    labels_from: "best_fit" takes, at each count and in every resample, the candidate
+    partition with the highest modularity on the fused graph (see `partitions`); a
+    candidate's name ("joint_model", "fused_graph", "concatenation") takes that one always.
     """
 
     n_resamples: int = 50
@@ -46,6 +51,7 @@ class SweepSettings:
     resample_restarts: int = 1
     warm_start: bool = False
     start_from: str = "graph"
+    labels_from: str = "best_fit"
 
     def __post_init__(self) -> None:
         object.__setattr__(self, "pac_window", check_window(self.pac_window))
@@ -60,6 +66,8 @@ class SweepSettings:
                 raise InputError(f"{name}: found {value!r}; expected a whole number >= {lowest}")
         if self.start_from not in START_FROM:
             raise InputError(f"start_from: found {self.start_from!r}; expected one of {', '.join(START_FROM)}")
+        if self.labels_from not in LABELS_FROM:
+            raise InputError(f"labels_from: found {self.labels_from!r}; expected one of {', '.join(LABELS_FROM)}")
         if not 0.0 <= self.core_threshold <= 1.0:
             raise InputError(f"core_threshold: found {self.core_threshold}; expected a value in [0, 1]")
         if self.pac_tolerance < 0:

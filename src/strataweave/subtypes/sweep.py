@@ -23,6 +23,7 @@ from strataweave.subtypes.compare import compare_partitions, split_flow
 from strataweave.subtypes.consensus import consensus_matrix, core_flags
 from strataweave.subtypes.criteria import cophenetic_correlation, pac, resample_stability, smallest_subtype_size
 from strataweave.subtypes.parallel import ParallelSettings, TaskRunner
+from strataweave.subtypes.partitions import graph_degree, joint_coordinates
 from strataweave.subtypes.recommend import recommend_count
 from strataweave.subtypes.result import SweepResult
 from strataweave.subtypes.settings import SweepSettings, check_counts, default_min_size
@@ -100,8 +101,12 @@ def sweep_subtype_counts(
         if fixed in factorization:
             raise InputError(f"factorization: found {fixed!r}; expected it left to the sweep")
 
-    shared = SweepInputs(arrays, affinity, counts, factorization, settings, concatenated_scaled(list(arrays.values())))
-    full_root, resample_root = child_seeds(random_state, 2)
+    full_root, resample_root, joint_root = child_seeds(random_state, 3)
+    concatenated = concatenated_scaled(list(arrays.values()))
+    shared = SweepInputs(
+        arrays, affinity, counts, factorization, settings, concatenated,
+        joint_coordinates(concatenated, joint_root), graph_degree(affinity),
+    )
     count_seeds = child_seeds(full_root, max(counts) + 1)
     with TaskRunner(parallel) as runner:
         fits = runner.map(fit_full_data, shared, [(k, count_seeds[k]) for k in counts], progress)
@@ -121,7 +126,7 @@ def _assemble(patients, affinity, counts, settings, fits, resample_labels, resam
     """Criteria, consensus, assignments, baselines, flow and recommendation from the fits."""
     embedding = spectral_embedding(affinity, n_dims=min(max(counts), len(patients) - 1))
     gaps = eigengaps(affinity, max(counts))["gap"]
-    rows, consensus, assignments, baseline_labels, baseline_rows = {}, {}, {}, {}, []
+    rows, consensus, assignments, baseline_labels, baseline_rows, partitions = {}, {}, {}, {}, [], {}
     for fit in fits:
         k = fit.count
         consensus[k] = consensus_matrix(resample_labels[k])
@@ -145,7 +150,9 @@ def _assemble(patients, affinity, counts, settings, fits, resample_labels, resam
             "reconstruction_error": float(np.mean(fit.model.reconstruction_error_)),
             "smallest_subtype": smallest_subtype_size(fit.labels),
             "stability": resample_stability(resample_labels[k], fit.labels),
+            "modularity": fit.modularity[fit.source],
         }
+        partitions[k] = {"source": fit.source, **{f"modularity_{name}": q for name, q in fit.modularity.items()}}
         baseline_labels[k] = pd.DataFrame(fit.baseline_labels, index=patients)
         for method, labels in fit.baseline_labels.items():
             agreement = compare_partitions(fit.labels, labels)
@@ -172,6 +179,7 @@ def _assemble(patients, affinity, counts, settings, fits, resample_labels, resam
         resample_labels=resample_labels,
         baseline_labels=baseline_labels,
         baselines=pd.DataFrame(baseline_rows),
+        partitions=pd.DataFrame.from_dict(partitions, orient="index").rename_axis("count"),
         flow=_flows(counts, assignments),
         models={fit.count: fit.model for fit in fits},
         recommendation=recommendation,

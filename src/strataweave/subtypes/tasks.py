@@ -15,10 +15,11 @@ import numpy as np
 import scipy.sparse as sp
 from sklearn.exceptions import ConvergenceWarning
 
-from strataweave.factorize import JointNMF, label_patients, partition_factor
+from strataweave.factorize import JointNMF, label_patients, partition_factor, scores_for_labels
 from strataweave.seeding import child_seeds
 from strataweave.subtypes.baselines import graph_partitions, kmeans_labels
 from strataweave.subtypes.consensus import NOT_DRAWN
+from strataweave.subtypes.partitions import choose_partition, concatenation_partitions
 from strataweave.subtypes.settings import SweepSettings
 
 
@@ -26,8 +27,9 @@ from strataweave.subtypes.settings import SweepSettings
 class SweepInputs:
     """What every task reads: modalities (name -> patients x features, all-NaN rows for a
     missing modality), the fused affinity, the counts, JointNMF keyword arguments, the
-    sweep settings, the scaled concatenation for the k-means baseline, and, for warm starts,
-    the full-data factors per count."""
+    sweep settings, the scaled concatenation for the k-means baseline, its principal
+    coordinates and the neighbour count for the concatenation partition, and, for warm
+    starts, the full-data factors per count."""
 
     views: dict[str, np.ndarray]
     affinity: sp.csr_matrix
@@ -35,16 +37,21 @@ class SweepInputs:
     factorization: dict
     settings: SweepSettings
     concatenated: np.ndarray
+    joint: np.ndarray
+    joint_neighbours: int
     warm_factors: dict[int, tuple[np.ndarray, list[np.ndarray]]] | None = None
 
 
 @dataclass
 class FullFit:
-    """The full-data fit at one count: model, labels, confidence, scores, baseline labels."""
+    """The full-data fit at one count: model, labels (and which candidate partition they are,
+    with every candidate's modularity), confidence, scores, baseline labels."""
 
     count: int
     model: JointNMF
     labels: np.ndarray
+    source: str
+    modularity: dict[str, float]
     confidence: np.ndarray
     scores: np.ndarray
     baseline_labels: dict[str, np.ndarray]
@@ -60,7 +67,7 @@ class ResampleFit:
 
 
 def _fit_and_label(views, affinity, count, factorization, seed, warm=None):
-    """JointNMF at `count`, then labels; also how many fits stopped at max_iter."""
+    """JointNMF at `count` and its own labels; also how many fits stopped at max_iter."""
     nmf_seed, label_seed = child_seeds(seed, 2)
     model = JointNMF(n_components=count, random_state=nmf_seed, **factorization)
     W_init, H_init = warm if warm is not None else (None, None)
@@ -68,8 +75,18 @@ def _fit_and_label(views, affinity, count, factorization, seed, warm=None):
         warnings.simplefilter("always", ConvergenceWarning)
         model.fit(views, graph=affinity, W_init=W_init, H_init=H_init)
     unconverged = sum(issubclass(w.category, ConvergenceWarning) for w in caught)
-    labels, confidence, scores = label_patients(model.patient_factor_, count, random_state=label_seed)
-    return model, labels, confidence, scores, unconverged
+    labels, _, _ = label_patients(model.patient_factor_, count, random_state=label_seed)
+    return model, labels, unconverged
+
+
+def _candidates(settings: SweepSettings, model_labels, graph_partition, concatenation) -> dict[str, np.ndarray]:
+    """The candidate partitions `settings.labels_from` admits (`concatenation` is called only if needed)."""
+    candidates = {"joint_model": model_labels, "fused_graph": graph_partition}
+    if settings.labels_from in ("best_fit", "concatenation"):
+        candidates["concatenation"] = concatenation()
+    if settings.labels_from == "best_fit":
+        return candidates
+    return {settings.labels_from: candidates[settings.labels_from]}
 
 
 def _start(settings: SweepSettings, partition: np.ndarray, count: int, warm=None):
@@ -82,15 +99,21 @@ def _start(settings: SweepSettings, partition: np.ndarray, count: int, warm=None
 
 
 def fit_full_data(shared: SweepInputs, task: tuple[int, int]) -> FullFit:
-    """Joint NMF on all patients at one count, plus the two baselines at that count."""
+    """Joint NMF on all patients at one count, the chosen partition, and the two baselines at that count."""
     count, seed = task
-    fit_seed, spectral_seed, kmeans_seed = child_seeds(seed, 3)
+    fit_seed, spectral_seed, kmeans_seed, joint_seed = child_seeds(seed, 4)
     spectral = graph_partitions(shared.affinity, [count], spectral_seed)[count]
-    model, labels, confidence, scores, unconverged = _fit_and_label(
+    model, model_labels, unconverged = _fit_and_label(
         shared.views, shared.affinity, count, shared.factorization, fit_seed, _start(shared.settings, spectral, count)
     )
+    candidates = _candidates(
+        shared.settings, model_labels, spectral,
+        lambda: concatenation_partitions(shared.joint, [count], shared.joint_neighbours, joint_seed)[count],
+    )
+    source, labels, modularity = choose_partition(shared.affinity, candidates)
+    confidence, scores = scores_for_labels(model.patient_factor_, labels, count)
     baselines = {"spectral": spectral, "kmeans": kmeans_labels(shared.concatenated, count, kmeans_seed)}
-    return FullFit(count, model, labels, confidence, scores, baselines, unconverged)
+    return FullFit(count, model, labels, source, modularity, confidence, scores, baselines, unconverged)
 
 
 def _draw(rng: np.random.Generator, size: int, fraction: float, at_least: int) -> np.ndarray:
@@ -104,11 +127,12 @@ def fit_resample(shared: SweepInputs, task: tuple[int, int]) -> ResampleFit:
 
     Seed layout: child 0 draws the resample, child k seeds count k, so the draw does not
     depend on the counts and a count's fit does not depend on the other counts; the graph
-    partitions that start the fits (one embedding for all counts) take child max(counts) + 1.
+    partitions (one embedding for all counts) take child max(counts) + 1 and the
+    concatenation partitions child max(counts) + 2.
     """
     _, seed = task
     settings, counts = shared.settings, shared.counts
-    seeds = child_seeds(seed, max(counts) + 2)
+    seeds = child_seeds(seed, max(counts) + 3)
     rng = np.random.default_rng(seeds[0])
     n_patients = shared.affinity.shape[0]
     rows = _draw(rng, n_patients, settings.fraction, max(counts) + 1)
@@ -120,15 +144,25 @@ def fit_resample(shared: SweepInputs, task: tuple[int, int]) -> ResampleFit:
     affinity = shared.affinity[rows][:, rows]
     factorization = {**shared.factorization, "n_restarts": settings.resample_restarts}
     labels = np.full((len(counts), n_patients), NOT_DRAWN, dtype=np.int16)
-    partitions = graph_partitions(affinity, counts, seeds[-1]) if settings.start_from == "graph" else {}
+    partitions = graph_partitions(affinity, counts, seeds[max(counts) + 1])
+    concatenation = {}
+
+    def concatenation_at(count):
+        if not concatenation:
+            concatenation.update(
+                concatenation_partitions(shared.joint[rows], counts, shared.joint_neighbours, seeds[max(counts) + 2])
+            )
+        return concatenation[count]
+
     unconverged = 0
     for position, count in enumerate(counts):
         warm = None
         if shared.warm_factors is not None:
             W, loadings = shared.warm_factors[count]
             warm = (W[rows], [H[:, columns[name]] for name, H in zip(views, loadings)])
-        start = _start(settings, partitions.get(count), count, warm)
-        _, drawn_labels, _, _, stopped = _fit_and_label(views, affinity, count, factorization, seeds[count], start)
-        labels[position, rows] = drawn_labels
+        start = _start(settings, partitions[count], count, warm)
+        _, model_labels, stopped = _fit_and_label(views, affinity, count, factorization, seeds[count], start)
+        candidates = _candidates(settings, model_labels, partitions[count], lambda: concatenation_at(count))
+        labels[position, rows] = choose_partition(affinity, candidates)[1]
         unconverged += stopped
     return ResampleFit(labels, unconverged)

@@ -26,7 +26,7 @@ from strataweave.graph.kernels import KERNELS
 from strataweave.graph.metrics import METRICS
 from strataweave.graph.rules import RULES
 from strataweave.subtypes.parallel import BACKENDS, ParallelSettings
-from strataweave.subtypes.settings import START_FROM, SweepSettings
+from strataweave.subtypes.settings import LABELS_FROM, START_FROM, SweepSettings
 from strataweave.workflow import rules
 
 SAFE_NAME = r"[A-Za-z0-9][A-Za-z0-9_.-]*"
@@ -147,6 +147,10 @@ class SubtypeSettings:
     )
     pac_tolerance: float = key(rules.number(minimum=0), SweepSettings.pac_tolerance, doc="PAC differences below this are ties")
     core_threshold: float = key(rules.number(0, 1), SweepSettings.core_threshold, doc="mean consensus with the own subtype")
+    labels_from: str = key(
+        rules.choice(*LABELS_FROM), SweepSettings.labels_from,
+        doc="best_fit: the candidate partition with the highest modularity on the fused graph; or one candidate",
+    )
 
 
 @dataclass(frozen=True)

@@ -58,6 +58,7 @@ def sweep_settings(flow: Workflow) -> SweepSettings:
         resample_restarts=resampling.restarts,
         warm_start=resampling.warm_start,
         start_from=flow.factorization.start_from,
+        labels_from=flow.subtypes.labels_from,
     )
 
 
@@ -104,6 +105,7 @@ def sweep_record(result: SweepResult) -> dict:
         "resample_labels": result.resample_labels,
         "baseline_labels": result.baseline_labels,
         "baselines": result.baselines,
+        "partitions": result.partitions,
         "flow": result.flow,
         "models": {k: _model_record(model) for k, model in result.models.items()},
         "recommendation": result.recommendation.to_dict(),
@@ -125,6 +127,7 @@ def sweep_from_record(record: dict) -> SweepResult:
         resample_labels=record["resample_labels"],
         baseline_labels=record["baseline_labels"],
         baselines=record["baselines"],
+        partitions=record["partitions"],
         flow=record["flow"],
         models={k: model_from_record(model) for k, model in record["models"].items()},
         recommendation=Recommendation(**record["recommendation"]),

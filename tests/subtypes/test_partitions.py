@@ -1,0 +1,123 @@
+"""The candidate partitions at one count and the modularity rule that picks among them."""
+
+import numpy as np
+import pytest
+import scipy.sparse as sp
+from sklearn.cluster import KMeans, SpectralClustering
+from sklearn.datasets import make_blobs
+from sklearn.metrics import adjusted_rand_score
+
+from cohort import prepared_cohort
+from strataweave.factorize import label_patients, scores_for_labels
+from strataweave.graph import modularity
+from strataweave.subtypes.partitions import (
+    PARTITION_SOURCES,
+    choose_partition,
+    concatenation_partitions,
+    graph_degree,
+    joint_coordinates,
+)
+from strataweave.subtypes.settings import SweepSettings
+from strataweave.subtypes.sweep import sweep_subtype_counts
+
+
+def _cliques(sizes: list[int]) -> tuple[sp.csr_matrix, np.ndarray]:
+    """Disconnected complete graphs of the given sizes, and each node's clique."""
+    blocks = [np.ones((s, s)) - np.eye(s) for s in sizes]
+    labels = np.repeat(np.arange(len(sizes)), sizes)
+    return sp.csr_matrix(sp.block_diag(blocks)), labels
+
+
+@pytest.mark.parametrize("n_cliques", [2, 3, 5])
+def test_modularity_of_equal_disconnected_cliques_is_one_minus_one_over_their_count(n_cliques):
+    # Newman 2006 (PNAS 103:8577): c equal disconnected groups split along the groups give Q = 1 - 1/c
+    affinity, labels = _cliques([4] * n_cliques)
+    assert modularity(affinity, labels) == pytest.approx(1 - 1 / n_cliques)
+    assert modularity(affinity, np.zeros(labels.size, dtype=int)) == pytest.approx(0.0)
+
+
+def test_modularity_matches_the_pair_sum_definition_on_a_weighted_graph():
+    # the definition Q = 1/2m sum_ij (A_ij - k_i k_j / 2m) [c_i = c_j], summed pair by pair
+    rng = np.random.default_rng(0)
+    dense = np.triu(rng.random((12, 12)) * (rng.random((12, 12)) < 0.4), 1)
+    dense = dense + dense.T
+    labels = rng.integers(0, 3, 12)
+    degree = dense.sum(axis=1)
+    two_m = degree.sum()
+    expected = sum(
+        dense[i, j] - degree[i] * degree[j] / two_m for i in range(12) for j in range(12) if labels[i] == labels[j]
+    ) / two_m
+    assert modularity(sp.csr_matrix(dense), labels) == pytest.approx(expected)
+
+
+def test_the_candidate_with_the_highest_modularity_wins_and_a_tie_keeps_the_first():
+    affinity, truth = _cliques([5, 5, 5])
+    shuffled = np.random.default_rng(1).permutation(truth)
+    source, labels, scores = choose_partition(affinity, {"joint_model": shuffled, "fused_graph": truth})
+    assert source == "fused_graph" and np.array_equal(labels, truth)
+    assert scores["fused_graph"] > scores["joint_model"]
+    renamed = (truth + 1) % 3  # the same partition under other codes: a tie
+    source, _, _ = choose_partition(affinity, {"joint_model": renamed, "fused_graph": truth})
+    assert source == "joint_model"
+
+
+def test_concatenation_partition_agrees_with_scikit_learn_spectral_clustering():
+    # reference: scikit-learn's SpectralClustering with a symmetrised k-nearest-neighbour affinity
+    points, _ = make_blobs(n_samples=240, centers=4, cluster_std=1.5, random_state=3)
+    ours = concatenation_partitions(points, [4], 10, random_state=0)[4]
+    theirs = SpectralClustering(4, affinity="nearest_neighbors", n_neighbors=10, random_state=0).fit_predict(points)
+    assert adjusted_rand_score(ours, theirs) > 0.98
+
+
+def test_joint_coordinates_keep_the_neighbourhoods_of_a_wide_concatenation():
+    points, truth = make_blobs(n_samples=150, n_features=300, centers=3, random_state=4)
+    reduced = joint_coordinates(points, random_state=0)
+    assert reduced.shape == (150, 50)
+    assert np.array_equal(joint_coordinates(points[:, :20], random_state=0), points[:, :20])  # narrow: kept
+    assert adjusted_rand_score(truth, KMeans(3, n_init=5, random_state=0).fit_predict(reduced)) == 1.0
+
+
+def test_graph_degree_is_the_mean_neighbour_count():
+    affinity, _ = _cliques([6, 6])  # every node has 5 neighbours
+    assert graph_degree(affinity) == 5
+
+
+def test_scores_for_the_labellers_own_labels_match_its_scores():
+    # reference: the k-means centres of label_patients are the means of their members at convergence
+    W = np.abs(np.random.default_rng(2).normal(size=(80, 3))) + np.repeat(np.eye(3), [30, 30, 20], axis=0) * 3
+    labels, confidence, scores = label_patients(W, 3, random_state=0)
+    own_confidence, own_scores = scores_for_labels(W, labels, 3)
+    np.testing.assert_allclose(own_scores, scores, atol=1e-6)
+    np.testing.assert_allclose(own_confidence, confidence, atol=1e-6)
+
+
+@pytest.fixture(scope="module")
+def cohort():
+    return prepared_cohort(n_patients=90, n_subtypes=3, seed=3, top_features=40)
+
+
+def _sweep(cohort, labels_from):
+    settings = SweepSettings(n_resamples=3, min_size=5, labels_from=labels_from)
+    return sweep_subtype_counts(
+        cohort.views, cohort.graph, [2, 3], settings=settings, factorization={"max_iter": 60}, random_state=1
+    )
+
+
+def test_the_sweep_records_each_counts_source_and_takes_the_best_fitting_candidate(cohort):
+    result = _sweep(cohort, "best_fit")
+    table = result.partitions
+    assert list(table.index) == [2, 3] and set(table["source"]) <= set(PARTITION_SOURCES)
+    for count, row in table.iterrows():
+        qualities = row[[f"modularity_{name}" for name in PARTITION_SOURCES]].astype(float)
+        assert row[f"modularity_{row['source']}"] == qualities.max()
+        assert result.criteria.loc[count, "modularity"] == pytest.approx(qualities.max())
+        labels = result.assignments[count]["subtype"].to_numpy()
+        assert modularity(cohort.graph.affinity, labels) == pytest.approx(qualities.max())
+
+
+def test_one_named_candidate_is_taken_at_every_count(cohort):
+    result = _sweep(cohort, "fused_graph")
+    assert list(result.partitions["source"]) == ["fused_graph", "fused_graph"]
+    for count in (2, 3):
+        spectral = result.baseline_labels[count]["spectral"].to_numpy()
+        assert np.array_equal(result.assignments[count]["subtype"].to_numpy(), spectral)
