@@ -76,6 +76,10 @@ def make_results(modality_names=("rna", "methylation"), feature_prefix="FX", tit
             "isolated_patients": 2,
             "fallback_patients": 2,
             "components": 1,
+            "rule_evidence": [
+                {"rule": "intersection", "quorum": None, "confirmed_share": 0.61, "fallback_patients": 2, "chosen": True},
+                {"rule": "average", "quorum": None, "confirmed_share": 0.47, "fallback_patients": 0, "chosen": False},
+            ],
             "agreement": [
                 {"modality_a": a, "modality_b": b, "overlap": 0.3}
                 for j, a in enumerate(modality_names)
@@ -93,6 +97,11 @@ def make_results(modality_names=("rna", "methylation"), feature_prefix="FX", tit
             },
             "higher_is_better": {"pac": False, "cophenetic": True, "silhouette": True, "eigengap": True,
                                  "smallest_size": None},
+            "partitions": [
+                {"count": k, "source": "fused_graph" if k == 3 else "joint_model", "modularity_joint_model": 0.41,
+                 "modularity_fused_graph": 0.43 if k == 3 else 0.39}
+                for k in counts
+            ],
             "recommended": 3,
             "reason": "Count 3 has the lowest PAC & every subtype has at least 10 patients.",
             "overridden": False,

@@ -115,6 +115,12 @@ def test_sections_methods_and_rerun_command(rendered, page):
     assert "Senbabaoglu Y" in page and "Proportional hazards:" in page
 
 
+def test_fusion_rule_and_partition_choices_are_shown_with_their_evidence(page):
+    assert "How the fusion rule was chosen" in page and "<td>0.61</td>" in page and "<td>0.47</td>" in page
+    assert "Which partition at each count" in page and "<td>fused graph</td>" in page and "<td>0.43</td>" in page
+    assert "Newman MEJ" in page  # the methods text cites the modularity rule
+
+
 def _subtype_pixels(path: Path, code: int) -> int:
     image = (mpimg.imread(path)[..., :3] * 255).round().astype(int)
     target = np.array([int(subtype_colour(code)[i:i + 2], 16) for i in (1, 3, 5)])

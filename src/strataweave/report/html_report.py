@@ -70,6 +70,12 @@ def _reproducibility(run: RunView) -> dict[str, Any]:
     }
 
 
+def _partition_rows(selection: dict[str, Any]) -> list[dict[str, Any]]:
+    """The partition chosen at each count and every candidate's modularity, in words."""
+    return [{key.replace("modularity_", "modularity, "): value.replace("_", " ") if key == "source" else value
+             for key, value in row.items()} for row in selection.get("partitions") or []]
+
+
 def report_context(run: RunView, figures: list[DrawnFigure]) -> dict[str, Any]:
     """Everything the template shows, as plain values; user strings stay raw (the template escapes them)."""
     results = run.results
@@ -87,6 +93,8 @@ def report_context(run: RunView, figures: list[DrawnFigure]) -> dict[str, Any]:
         "agreement": rows_table(results["graph"]["agreement"]) if run.has("graph") else None,
         "selection": results.get("selection"),
         "criteria": criteria_table(results["selection"]) if run.has("selection") else None,
+        "rule_evidence": rows_table((results.get("graph") or {}).get("rule_evidence") or []),
+        "partitions": rows_table(_partition_rows(results.get("selection") or {})),
         "subtypes": rows_table(_subtype_rows(run)),
         "show_patient_ids": run.show_patient_ids,
         "baselines": rows_table(results["baselines"]) if run.has("baselines") else None,
