@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 
 from strataweave import InputError
-from strataweave.workflow.model_files import MODEL_ARRAYS, MODEL_FORMAT, MODEL_JSON, SavedModel
+from strataweave.subtypes.model import MODEL_ARRAYS, MODEL_FORMAT, MODEL_JSON, SubtypeModel
 
 
 def _model_folder(folder, description) -> None:
@@ -29,5 +29,5 @@ def _model_folder(folder, description) -> None:
 def test_a_damaged_model_is_bad_input_naming_the_key(tmp_path, description, named) -> None:
     _model_folder(tmp_path / "model", description)
     with pytest.raises(InputError, match=named) as raised:
-        SavedModel(tmp_path / "model")
+        SubtypeModel.load(tmp_path / "model")
     assert "\n" not in str(raised.value)

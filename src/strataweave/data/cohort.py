@@ -126,9 +126,17 @@ class Cohort:
         return pd.DataFrame(columns, index=self.patients, dtype=bool)
 
     def aligned_views(self, patients: pd.Index | None = None) -> list[pd.DataFrame]:
-        """Each modality's data on one patient index (default: the cohort's), all-NaN rows where missing."""
+        """Each modality's data on one patient index (default: the cohort's), all-NaN rows where missing.
+
+        These are the joint NMF's inputs (non-negative when the preprocessing made them so).
+        """
         index = self.patients if patients is None else pd.Index(patients)
         return [m.data.reindex(index) for m in self.modalities]
+
+    def normalised_views(self) -> dict[str, pd.DataFrame]:
+        """Each modality on its own patients and normalised scale, one column per feature (before
+        any sign split): what patient graphs and marker tests take."""
+        return {m.name: unsplit_data(m) for m in self.modalities}
 
 
 def _check_unique_names(modalities: list[Modality]) -> None:

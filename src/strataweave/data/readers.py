@@ -8,6 +8,7 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
+from strataweave.data.annotated import is_annotated, read_annotated_matrix, read_annotated_obs
 from strataweave.data.cells import MISSING_TOKENS, TableText, quick_numbers, read_cells, read_table, split_cells
 from strataweave.data.positions import TablePositions, input_error, shown
 from strataweave.data.validation import check_identifiers, check_kind, check_values, parse_numbers
@@ -19,8 +20,13 @@ def read_clinical(path, id_column: str) -> pd.DataFrame:
     """The clinical table indexed by stripped string patient IDs.
 
     Columns whose every present cell is a number become float64 (missing cells NaN);
-    other columns keep their stripped text (missing cells None).
+    other columns keep their stripped text (missing cells None). An .h5ad or .h5mu file gives
+    its `obs`, indexed by its patient IDs (`id_column` is not needed there).
     """
+    if is_annotated(path):
+        obs = read_annotated_obs(path)
+        check_identifiers(obs.index, TablePositions(str(path), obs.index, obs.columns), "row")
+        return obs
     table = read_cells(path)
     if table.body.shape[0] == 0:
         raise input_error(table.source, "file", "a header and no data rows", "one row per patient")
@@ -61,8 +67,11 @@ def read_matrix(
     it is None it is detected by matching the row and column identifiers to `known_ids`
     (usually the clinical patient IDs). Identifiers are stripped of surrounding
     whitespace. When `kind` is given, values are checked against its range (counts and
-    abundances non-negative, beta values in [0, 1]).
+    abundances non-negative, beta values in [0, 1]). An .h5ad file gives its `X`, an .h5mu the
+    `X` of its modality `name` (patients in rows there, so `orientation` is not needed).
     """
+    if is_annotated(path):
+        return _annotated_matrix(path, orientation, name, kind)
     parts = _matrix_parts(path)
     source = parts.source if name is None else f"{parts.source} (modality {shown(name)})"
     if kind is not None:
@@ -78,6 +87,20 @@ def read_matrix(
         frame = frame.T
     frame.index.name = "patient_id"
     frame.columns.name = "feature"
+    return frame
+
+
+def _annotated_matrix(path, orientation: str | None, name: str | None, kind: str | None) -> pd.DataFrame:
+    source = f"{path} (modality {shown(name)})" if name is not None else str(path)
+    if orientation not in (None, "samples_in_rows"):
+        raise input_error(source, "key 'orientation'", shown(orientation), "samples_in_rows or none for AnnData files")
+    if kind is not None:
+        check_kind(kind, source)
+    frame = read_annotated_matrix(path, name)
+    positions = TablePositions(source, frame.index, frame.columns)
+    frame.index = pd.Index(check_identifiers(frame.index, positions, "row"), name="patient_id")
+    frame.columns = pd.Index(check_identifiers(frame.columns, positions, "column"), name="feature")
+    check_values(frame.to_numpy(), positions, kind)
     return frame
 
 

@@ -193,6 +193,13 @@ def default_modality_weights(views: Sequence | Mapping) -> list[float]:
     ]
 
 
+def relative_modality_weights(views: Sequence | Mapping, relative: Sequence[float]) -> list[float] | None:
+    """Modality weights that scale the default balance by `relative` (None when all are 1: the default)."""
+    if all(w == 1.0 for w in relative):
+        return None
+    return [w * a for w, a in zip(relative, default_modality_weights(views))]
+
+
 def prepare_views(
     views: Sequence | Mapping,
     *,

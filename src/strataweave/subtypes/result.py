@@ -41,6 +41,20 @@ def subtype_names(count: int) -> list[str]:
     return [f"S{code + 1}" for code in range(count)]
 
 
+def subtype_labels(codes: pd.Series, count: int) -> pd.Series:
+    """Subtype names (S1, S2, ...) of integer codes, on the same patient index."""
+    names = np.asarray(subtype_names(count), dtype=object)
+    return pd.Series(names[codes.to_numpy()], index=codes.index, name="subtype")
+
+
+def named_assignments(assignments: pd.DataFrame) -> pd.DataFrame:
+    """A sweep's assignments at one count with subtype names and score_<name> columns."""
+    count = sum(1 for column in assignments.columns if str(column).startswith("score_"))
+    names = subtype_names(count)
+    renamed = assignments.rename(columns={f"score_{j}": f"score_{name}" for j, name in enumerate(names)})
+    return renamed.assign(subtype=subtype_labels(assignments["subtype"], count))
+
+
 @dataclass(frozen=True)
 class SweepResult:
     """Everything the sweep found, keyed by subtype count.

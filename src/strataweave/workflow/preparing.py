@@ -15,29 +15,23 @@ from __future__ import annotations
 
 import pandas as pd
 
-from strataweave.data.cohort import Cohort, prepare_modality, unsplit_data
+from strataweave.data.assembly import cohort_from_tables
+from strataweave.data.cohort import Cohort
 from strataweave.data.qc import applied_filters, qc_summary
 from strataweave.workflow.config import Workflow
 
 #: Version of the prepare stage's result: part of its cache key, so that a run folder
 #: cached by an older layout is prepared again rather than read with missing entries.
-RESULT_LAYOUT = 2
-
-#: A modality needs at least one patient of the clinical table; small cohorts stay allowed.
-MIN_SHARED_PATIENTS = 1
+RESULT_LAYOUT = 3
 
 
 def build_cohort(flow: Workflow, loaded: dict) -> Cohort:
     """The workflow's modalities prepared and aligned on the clinical table."""
-    clinical = loaded["clinical"]
-    modalities = []
+    modalities = {}
     for modality in flow.modalities:
         options = {key: value for key, value in modality.preprocessing().items() if key != "kind"}
-        modalities.append(prepare_modality(
-            modality.name, modality.kind, loaded["raw"][modality.name],
-            source=modality.path.name, patients=clinical.index, **options,
-        ))
-    return Cohort(clinical, modalities, min_patients=MIN_SHARED_PATIENTS)
+        modalities[modality.name] = (loaded["raw"][modality.name], modality.kind, options)
+    return cohort_from_tables(loaded["clinical"], modalities, sources={m.name: m.path.name for m in flow.modalities})
 
 
 def qc_rows(cohort: Cohort) -> list[dict]:
@@ -69,9 +63,7 @@ def prepare_cohort(flow: Workflow, loaded: dict) -> dict:
         "patients": cohort.patients,
         "views": {m.name: m.data for m in cohort.modalities},
         "aligned_views": cohort.aligned_views(),
-        "unsplit_views": {
-            m.name: unsplit_data(m) for m in cohort.modalities if m.preprocessor.non_negative == "split"
-        },
+        "normalised_views": cohort.normalised_views(),
         "preprocessors": preprocessors,
         "presence": cohort.presence,
         "qc": qc_rows(cohort),
@@ -81,12 +73,9 @@ def prepare_cohort(flow: Workflow, loaded: dict) -> dict:
 
 
 def normalised_views(prepared: dict) -> dict[str, pd.DataFrame]:
-    """Each modality on its normalised scale, one column per feature: for patient distances and markers.
-
-    A shift keeps both distances and feature names, so the model's view serves; a sign split
-    keeps neither, so its modality's data before the split is used.
-    """
-    return {name: prepared["unsplit_views"].get(name, view) for name, view in prepared["views"].items()}
+    """Each modality on its normalised scale, one column per feature: for patient graphs and markers
+    (Cohort.normalised_views)."""
+    return prepared["normalised_views"]
 
 
 def aligned_views(prepared: dict) -> list[pd.DataFrame]:

@@ -12,6 +12,7 @@ from dataclasses import dataclass, field, fields
 from pathlib import Path
 
 from strataweave.data import Preprocessor
+from strataweave.data.assembly import ANALYSIS_DEFAULTS
 from strataweave.data.filters import RANKINGS
 from strataweave.data.imputation import IMPUTERS
 from strataweave.data.readers import ORIENTATIONS
@@ -79,16 +80,17 @@ class ModalitySettings:
     )
     min_variance: float = key(rules.number(minimum=0), PREPROCESSING["min_variance"])
     top_features: int = key(
-        rules.integer(1), 2000, doc="keep this many features, ranked by rank_by (the workflow caps what NMF sees)"
+        rules.integer(1), ANALYSIS_DEFAULTS["top_features"],
+        doc="keep this many features, ranked by rank_by (an analysis caps what NMF sees)",
     )
     rank_by: str = key(rules.choice(*RANKINGS), PREPROCESSING["rank_by"])
     impute: str = key(rules.choice(*IMPUTERS), PREPROCESSING["impute"])
     impute_neighbours: int = key(rules.integer(1), PREPROCESSING["impute_neighbours"])
     scale: str = key(rules.choice(*SCALINGS), PREPROCESSING["scale"])
     non_negative: str = key(
-        rules.choice(*NON_NEGATIVITY), "split",
+        rules.choice(*NON_NEGATIVITY), ANALYSIS_DEFAULTS["non_negative"],
         doc="how the NMF gets non-negative data; split keeps the sign of scaled data without an offset "
-        "(the workflow always needs one, unlike Preprocessor's default 'none')",
+        "(an analysis always needs one, unlike Preprocessor's default 'none')",
     )
 
     def preprocessing(self) -> dict:

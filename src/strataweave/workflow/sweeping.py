@@ -11,20 +11,19 @@ from __future__ import annotations
 
 from dataclasses import replace
 
-import numpy as np
 import pandas as pd
 
 from strataweave.factorize import JointNMF
-from strataweave.factorize.views import default_modality_weights
+from strataweave.factorize.views import relative_modality_weights
 from strataweave.subtypes.parallel import ParallelSettings
+from strataweave.subtypes.projection import placement, project_patients
 from strataweave.subtypes.recommend import Recommendation
-from strataweave.subtypes.result import SweepResult, subtype_names
+from strataweave.subtypes.result import SweepResult, subtype_labels, subtype_names
 from strataweave.subtypes.settings import SweepSettings
 from strataweave.subtypes.sweep import planned_tasks, sweep_subtype_counts
 from strataweave.workflow.config import Workflow
 from strataweave.workflow.preparing import aligned_views
 from strataweave.workflow.progress import Feedback
-from strataweave.workflow.projection import far_threshold, project_patients, subtype_centres
 
 
 def factorization_options(flow: Workflow, prepared: dict) -> dict:
@@ -37,11 +36,9 @@ def factorization_options(flow: Workflow, prepared: dict) -> dict:
         "init": settings.init,
         "n_restarts": settings.restarts,
     }
-    weights = [m.weight for m in flow.modalities]
-    if any(w != 1.0 for w in weights):
-        # the workflow weight scales the model's own balance between modalities
-        balance = default_modality_weights(list(prepared["views"].values()))
-        options["modality_weights"] = [w * a for w, a in zip(weights, balance)]
+    weights = relative_modality_weights(list(prepared["views"].values()), [m.weight for m in flow.modalities])
+    if weights is not None:
+        options["modality_weights"] = weights
     return options
 
 
@@ -164,19 +161,17 @@ def final_fit(prepared: dict, sweep: dict, selected: dict) -> dict:
     model = sweep["models"][count]
     assignments = sweep["assignments"][count]
     labels = assignments["subtype"].to_numpy()
-    projected = project_patients(model_from_record(model), aligned_views(prepared))
-    centres = subtype_centres(projected, labels, count)
+    centres, far = placement(project_patients(model_from_record(model), aligned_views(prepared)), labels, count)
     return {
         "count": count,
         "names": subtype_names(count),
         "model": model,
         "assignments": assignments,
         "centres": centres,
-        "far_threshold": far_threshold(projected, centres),
+        "far_threshold": far,
     }
 
 
 def final_labels(fitted: dict) -> pd.Series:
     """Subtype names per patient (S1, S2, ...)."""
-    codes = fitted["assignments"]["subtype"]
-    return pd.Series(np.asarray(fitted["names"], dtype=object)[codes.to_numpy()], index=codes.index, name="subtype")
+    return subtype_labels(fitted["assignments"]["subtype"], fitted["count"])

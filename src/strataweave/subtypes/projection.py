@@ -54,6 +54,12 @@ def far_threshold(W: np.ndarray, centres: np.ndarray) -> float:
     return float(np.percentile(1.0 - scores.max(axis=1), FAR_PERCENTILE))
 
 
+def placement(W: np.ndarray, labels: np.ndarray, count: int) -> tuple[np.ndarray, float]:
+    """Subtype centres and far threshold from the training patients' projected factor and labels."""
+    centres = subtype_centres(W, labels, count)
+    return centres, far_threshold(W, centres)
+
+
 def margin(scores: np.ndarray) -> np.ndarray:
     """Best minus second-best score of each patient."""
     top_two = -np.sort(-scores, axis=1)[:, :2]
