@@ -47,3 +47,15 @@ def test_user_override_is_kept_with_the_rules_choice_in_the_reason():
         recommend_count(table, min_size=10, user_count=4)
     with pytest.raises(InputError, match="expected one of the counts swept"):
         recommend_count(table, min_size=10, user_count=9)
+
+
+def test_a_count_that_fits_the_graph_better_is_named_as_runner_up():
+    table = criteria([0.0, 0.004, 0.04, 0.3], [1.0, 0.99, 0.95, 0.5], [80, 40, 30, 20]).assign(
+        modularity=[0.40, 0.51, 0.52, 0.45]
+    )
+    choice = recommend_count(table, min_size=10)
+    assert choice.count == 3
+    assert choice.reason.endswith("Runner-up: 4 subtypes, whose partition fits the fused graph better "
+                                  "(modularity 0.520 against 0.510, PAC 0.040).")
+    best_fit_chosen = table.assign(modularity=[0.40, 0.53, 0.52, 0.45])
+    assert "Runner-up" not in recommend_count(best_fit_chosen, min_size=10).reason

@@ -14,7 +14,9 @@ RULE = (
     "them, the counts whose PAC lies within pac_tolerance of the lowest eligible PAC are "
     "equally crisp, and the largest of these is chosen: resamples keep splitting the patients "
     "the same way at that finer count, which noise does not do. A count chosen by the user "
-    "replaces the rule's choice but must also be eligible."
+    "replaces the rule's choice but must also be eligible. Where another eligible count has "
+    "partitions that fit the fused graph better (higher modularity), the reason names it as "
+    "the runner-up, so that both can be examined."
 )
 # Why the largest of the equally crisp counts: merging two real subtypes is often just as
 # consistent across resamples as keeping them apart (PAC near 0 for both counts), while
@@ -68,7 +70,19 @@ def rule_choice(criteria: pd.DataFrame, min_size: int, pac_tolerance: float) -> 
             f"{pac_tolerance:g} of the lowest ({best_pac:.3f}) among counts whose smallest subtype "
             f"has at least {min_size} patients (equally crisp: {others})."
         )
-    return count, reason
+    return count, reason + _runner_up(eligible, count)
+
+
+def _runner_up(eligible: pd.DataFrame, count: int) -> str:
+    """A sentence naming the eligible count of highest modularity, where it is not `count`."""
+    if "modularity" not in eligible or eligible["modularity"].isna().all():
+        return ""
+    best = int(eligible["modularity"].idxmax())
+    if best == count:
+        return ""
+    return (f" Runner-up: {best} subtypes, whose partition fits the fused graph better (modularity "
+            f"{eligible.loc[best, 'modularity']:.3f} against {eligible.loc[count, 'modularity']:.3f}, "
+            f"PAC {eligible.loc[best, 'pac']:.3f}).")
 
 
 def recommend_count(
