@@ -10,12 +10,12 @@ from strataweave.workflow.config import load_workflow
 from strataweave.workflow.manifest import input_hashes
 from strataweave.workflow.pipeline import Pipeline
 from strataweave.workflow.progress import QUIET, Feedback
-from strataweave.workflow.runner import stage_seeds
+from strataweave.seeding import run_seeds
 from strataweave.workflow.stages import build_stages
 
 
 def _keys(flow) -> dict[str, str]:
-    stages = build_stages(flow, input_hashes(flow), stage_seeds(flow.seed), Feedback(QUIET))
+    stages = build_stages(flow, input_hashes(flow), run_seeds(flow.seed), Feedback(QUIET))
     return Pipeline(stages, StageCache("unused"), listener=None).keys
 
 

@@ -78,6 +78,9 @@ class PreparedViews:
 
 
 def _as_named_list(views) -> tuple[list[str], list]:
+    """Names and tables of the views; one 2-D array or DataFrame is a single view."""
+    if isinstance(views, pd.DataFrame) or (isinstance(views, np.ndarray) and views.ndim == 2):
+        return ["view 0"], [views]
     if isinstance(views, Mapping):
         return [str(name) for name in views], list(views.values())
     if isinstance(views, (list, tuple)):

@@ -12,7 +12,7 @@ import time
 from pathlib import Path
 
 from strataweave.files import sha256_file
-from strataweave.seeding import child_seeds
+from strataweave.seeding import run_seeds
 from strataweave.workflow.cache import StageCache, stage_key
 from strataweave.workflow.config import Workflow
 from strataweave.workflow.groups import read_groups
@@ -21,14 +21,6 @@ from strataweave.workflow.manifest import input_hashes, new_manifest, now_text
 from strataweave.workflow.pipeline import Pipeline
 from strataweave.workflow.progress import Feedback
 from strataweave.workflow.run_folder import RunFolder, prepare_run_folder
-
-SEEDED_STAGES = ("sweep", "evaluate")
-
-
-def stage_seeds(seed: int) -> dict[str, int]:
-    """One child seed per randomised stage, fixed by position so adding workers changes nothing."""
-    return dict(zip(SEEDED_STAGES, child_seeds(seed, len(SEEDED_STAGES))))
-
 
 class RunRecorder:
     """Keeps manifest.json current as stages start and finish, and tells the user."""
@@ -68,7 +60,7 @@ def run_workflow(
     groups = read_groups(groups_file) if groups_file is not None else None
     folder = prepare_run_folder(out, overwrite=overwrite)
     hashes = input_hashes(flow)
-    seeds = stage_seeds(flow.seed)
+    seeds = run_seeds(flow.seed)
     manifest = new_manifest(flow, "evaluate" if groups is not None else "run", argv, hashes, seeds)
     if groups_file is not None:
         hashes["groups"] = sha256_file(groups_file)
