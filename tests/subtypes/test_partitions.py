@@ -121,17 +121,3 @@ def test_one_named_candidate_is_taken_at_every_count(cohort):
     for count in (2, 3):
         spectral = result.baseline_labels[count]["spectral"].to_numpy()
         assert np.array_equal(result.assignments[count]["subtype"].to_numpy(), spectral)
-
-
-def test_resamples_repeat_the_full_data_choice_and_fit_the_model_only_where_it_was_chosen(cohort, monkeypatch):
-    from strataweave.subtypes import tasks
-
-    fits = []
-    original = tasks.JointNMF.fit
-    monkeypatch.setattr(tasks.JointNMF, "fit", lambda self, *a, **k: fits.append(self.n_components) or original(self, *a, **k))
-    result = _sweep(cohort, "fused_graph")
-    assert sorted(fits) == [2, 3]  # the full-data fits only: resamples take the graph's partition
-    fits.clear()
-    _sweep(cohort, "joint_model")
-    assert sorted(fits) == [2] * 4 + [3] * 4  # full data and each of the 3 resamples
-    assert result.settings.labels_from == "fused_graph"

@@ -6,9 +6,8 @@ one of them wins on every cohort (the joint model where a graph misses a weak co
 graphs where small or few views make the factors a poor labeller). Each candidate is scored
 by its modularity on the fused graph (Newman 2006), the graph the fusion rule chose as the
 one the modalities confirm most, and the highest wins; on a tie the earlier candidate (the
-joint model first) is kept. The choice is made once per count, on all patients; every
-resample repeats the chosen candidate, so the consensus judges the partition that is
-reported (choosing again per resample would mix labellers and blur the consensus).
+joint model first) is kept. Full-data fits and every resample apply the same rule, so the
+consensus judges the partition that is reported.
 """
 
 from __future__ import annotations

@@ -1,10 +1,8 @@
 """Sweep of subtype counts: resampling consensus, criteria, baselines and a recommended count.
 
-For each count, the joint NMF is fitted on all patients and the final labels are the
-candidate partition that fits the fused graph best (see `partitions`); each resample of the
-patients (graph restricted to the drawn ones) repeats that count's candidate, so the
-resample labels, which give the consensus matrix (Monti et al. 2003) and the criteria,
-judge the partition that is reported. Tasks run on the backend of `parallel`.
+For each count, the joint NMF is fitted on all patients (final labels) and on each resample
+of the patients (graph restricted to the drawn ones); the resample labels give the consensus
+matrix (Monti et al. 2003) and the criteria. Tasks run on the backend of `parallel`.
 """
 
 from __future__ import annotations
@@ -112,7 +110,6 @@ def sweep_subtype_counts(
     count_seeds = child_seeds(full_root, max(counts) + 1)
     with TaskRunner(parallel) as runner:
         fits = runner.map(fit_full_data, shared, [(k, count_seeds[k]) for k in counts], progress)
-        shared = replace(shared, sources={fit.count: fit.source for fit in fits})
         if settings.warm_start:
             shared = replace(
                 shared, warm_factors={fit.count: (fit.model.patient_factor_, fit.model.components_) for fit in fits}

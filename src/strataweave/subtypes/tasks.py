@@ -28,9 +28,8 @@ class SweepInputs:
     """What every task reads: modalities (name -> patients x features, all-NaN rows for a
     missing modality), the fused affinity, the counts, JointNMF keyword arguments, the
     sweep settings, the scaled concatenation for the k-means baseline, its principal
-    coordinates and the neighbour count for the concatenation partition, for resamples the
-    candidate partition each count's full-data fit took, and, for warm starts, the full-data
-    factors per count."""
+    coordinates and the neighbour count for the concatenation partition, and, for warm
+    starts, the full-data factors per count."""
 
     views: dict[str, np.ndarray]
     affinity: sp.csr_matrix
@@ -40,7 +39,6 @@ class SweepInputs:
     concatenated: np.ndarray
     joint: np.ndarray
     joint_neighbours: int
-    sources: dict[int, str] | None = None
     warm_factors: dict[int, tuple[np.ndarray, list[np.ndarray]]] | None = None
 
 
@@ -125,8 +123,7 @@ def _draw(rng: np.random.Generator, size: int, fraction: float, at_least: int) -
 
 
 def fit_resample(shared: SweepInputs, task: tuple[int, int]) -> ResampleFit:
-    """Draw patients (and features), restrict the graph to them, and partition every count
-    the way its full-data fit did (the joint model, the fused graph or the concatenation).
+    """Draw patients (and features), restrict the graph to them, fit and label every count.
 
     Seed layout: child 0 draws the resample, child k seeds count k, so the draw does not
     depend on the counts and a count's fit does not depend on the other counts; the graph
@@ -147,24 +144,25 @@ def fit_resample(shared: SweepInputs, task: tuple[int, int]) -> ResampleFit:
     affinity = shared.affinity[rows][:, rows]
     factorization = {**shared.factorization, "n_restarts": settings.resample_restarts}
     labels = np.full((len(counts), n_patients), NOT_DRAWN, dtype=np.int16)
-    graph_counts = [k for k in counts if shared.sources[k] == "fused_graph"
-                    or (shared.sources[k] == "joint_model" and settings.start_from == "graph")]
-    partitions = graph_partitions(affinity, graph_counts, seeds[max(counts) + 1]) if graph_counts else {}
-    joint_counts = [k for k in counts if shared.sources[k] == "concatenation"]
-    if joint_counts:
-        partitions.update(
-            concatenation_partitions(shared.joint[rows], joint_counts, shared.joint_neighbours, seeds[max(counts) + 2])
-        )
+    partitions = graph_partitions(affinity, counts, seeds[max(counts) + 1])
+    concatenation = {}
+
+    def concatenation_at(count):
+        if not concatenation:
+            concatenation.update(
+                concatenation_partitions(shared.joint[rows], counts, shared.joint_neighbours, seeds[max(counts) + 2])
+            )
+        return concatenation[count]
+
     unconverged = 0
     for position, count in enumerate(counts):
-        if shared.sources[count] != "joint_model":
-            labels[position, rows] = partitions[count]
-            continue
         warm = None
         if shared.warm_factors is not None:
             W, loadings = shared.warm_factors[count]
             warm = (W[rows], [H[:, columns[name]] for name, H in zip(views, loadings)])
-        start = _start(settings, partitions.get(count), count, warm)
-        _, labels[position, rows], stopped = _fit_and_label(views, affinity, count, factorization, seeds[count], start)
+        start = _start(settings, partitions[count], count, warm)
+        _, model_labels, stopped = _fit_and_label(views, affinity, count, factorization, seeds[count], start)
+        candidates = _candidates(settings, model_labels, partitions[count], lambda: concatenation_at(count))
+        labels[position, rows] = choose_partition(affinity, candidates)[1]
         unconverged += stopped
     return ResampleFit(labels, unconverged)
