@@ -17,7 +17,7 @@ def test_lowest_pac_wins_when_it_stands_alone():
     table = criteria([0.30, 0.02, 0.15, 0.20], [0.6, 0.9, 0.8, 0.7], [80, 40, 30, 20])
     choice = recommend_count(table, min_size=10)
     assert (choice.count, choice.chosen_by, choice.rule_count) == (3, "rule", 3)
-    assert choice.reason.startswith("3 subtypes: the lowest PAC (0.020)")
+    assert choice.reason.startswith("It has the lowest PAC (0.020)")  # the count is said beside it, not in it
     assert choice.rule == RULE and "min_size" in RULE
 
 
@@ -42,7 +42,7 @@ def test_user_override_is_kept_with_the_rules_choice_in_the_reason():
     table = criteria([0.30, 0.02, 0.15, 0.20], [0.6, 0.9, 0.8, 0.7], [80, 40, 3, 20])
     choice = recommend_count(table, min_size=10, user_count=5)
     assert (choice.count, choice.chosen_by, choice.rule_count) == (5, "user", 3)
-    assert "chosen by the user; the rule would choose 3 subtypes" in choice.reason
+    assert "Chosen by the user; the rule would choose 3. It has the lowest PAC" in choice.reason
     with pytest.raises(InputError, match="found 4, whose smallest subtype has 3 patients"):
         recommend_count(table, min_size=10, user_count=4)
     with pytest.raises(InputError, match="expected one of the counts swept"):

@@ -92,6 +92,7 @@ def test_to_dict_is_strict_json_and_meets_the_report_contract(result):
     check_results(document)
     assert document["subtype_count"] == result.count
     assert document["selection"]["reason"] == result.recommendation.reason
+    assert "subtypes:" not in document["selection"]["reason"]  # shown after the count, so it does not repeat it
     assert sum(document["subtypes"]["sizes"]) == len(result.patients)
     assert [row["method"] for row in document["baselines"]] == [
         "spectral clustering on the fused graph", "k-means on the concatenated scaled modalities"

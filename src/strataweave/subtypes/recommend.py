@@ -51,7 +51,7 @@ def _eligible(criteria: pd.DataFrame, min_size: int) -> pd.DataFrame:
 
 
 def rule_choice(criteria: pd.DataFrame, min_size: int, pac_tolerance: float) -> tuple[int, str]:
-    """The count the rule picks and the reason sentence (see RULE)."""
+    """The count the rule picks and the reason sentence (see RULE), which does not repeat the count."""
     eligible = _eligible(criteria, min_size)
     pac = eligible["pac"].fillna(np.inf)
     best_pac = float(pac.min())
@@ -60,13 +60,13 @@ def rule_choice(criteria: pd.DataFrame, min_size: int, pac_tolerance: float) -> 
     row = criteria.loc[count]
     if len(near) == 1:
         reason = (
-            f"{count} subtypes: the lowest PAC ({row['pac']:.3f}) among counts whose smallest "
+            f"It has the lowest PAC ({row['pac']:.3f}) among counts whose smallest "
             f"subtype has at least {min_size} patients."
         )
     else:
         others = ", ".join(str(int(k)) for k in near.index if k != count)
         reason = (
-            f"{count} subtypes: the largest count whose PAC ({row['pac']:.3f}) is within "
+            f"It is the largest count whose PAC ({row['pac']:.3f}) is within "
             f"{pac_tolerance:g} of the lowest ({best_pac:.3f}) among counts whose smallest subtype "
             f"has at least {min_size} patients (equally crisp: {others})."
         )
@@ -109,5 +109,5 @@ def recommend_count(
             f"subtype count: found {user_count}, whose smallest subtype has {smallest} patients; "
             f"expected a count whose smallest subtype has at least min_size={min_size}"
         )
-    user_reason = f"{user_count} subtypes: chosen by the user; the rule would choose {reason}"
+    user_reason = f"Chosen by the user; the rule would choose {count}. {reason}"
     return Recommendation(count=int(user_count), chosen_by="user", rule_count=count, reason=user_reason)
