@@ -113,6 +113,7 @@ def build_parser() -> argparse.ArgumentParser:
     assign.add_argument("--modality", type=_modality_file, action="append", required=True, metavar="NAME=PATH",
                         help="a matrix of new patients for modality NAME (repeat for each modality)")
     assign.add_argument("--out", type=Path, help="table to write (default: print to standard output)")
+    assign.add_argument("--force", action="store_true", help="replace an existing --out file (never an input or a run's file)")
 
     compare = verb("compare", "compare the subtypes of two runs: ARI, NMI, contingency table, flow")
     compare.add_argument("run_a", type=Path, help="first run folder")

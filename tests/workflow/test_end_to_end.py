@@ -141,9 +141,11 @@ def test_resume_after_kill_gives_byte_identical_tables(finished, tmp_path) -> No
     command = [sys.executable, "-m", "strataweave.cli", "run", str(flow), "--out", str(out), "--verbose"]
     returncode, _ = _signal_during_sweep(command, signal.SIGKILL)
     assert returncode == -signal.SIGKILL, "the run ended before the sweep could be interrupted"
-    manifest = json.loads((out / "manifest.json").read_text())
+    staging = tmp_path / ".resumed.running"
+    assert not out.exists()
+    manifest = json.loads((staging / "manifest.json").read_text())
     assert manifest["status"] == "running" and "sweep" not in manifest["stages"]
-    assert not list((out / "stages").glob("sweep-*.json"))
+    assert not list((staging / "stages").glob("sweep-*.json"))
 
     assert main(["run", str(flow), "--out", str(out), "--verbose"]) == 0
     stages = json.loads((out / "manifest.json").read_text())["stages"]
@@ -158,7 +160,7 @@ def test_ctrl_c_during_the_sweep_exits_130_with_one_line(finished, tmp_path) -> 
     returncode, rest = _signal_during_sweep(command, signal.SIGINT)
     assert returncode == 130
     assert rest.strip().splitlines()[-1] == "strataweave run: interrupted; run the same command again to resume"
-    assert json.loads((tmp_path / "interrupted" / "manifest.json").read_text())["status"] == "running"
+    assert json.loads((tmp_path / ".interrupted.running" / "manifest.json").read_text())["status"] == "running"
 
 
 def test_finished_run_is_not_overwritten_and_one_change_reruns_only_its_stages(finished, cohort, tmp_path, capsys) -> None:

@@ -16,9 +16,10 @@ def _manifest(folder, status: str) -> None:
 
 
 def test_new_and_empty_folders_are_accepted(tmp_path) -> None:
-    assert prepare_run_folder(tmp_path / "new").stages.is_dir()
+    assert prepare_run_folder(tmp_path / "new").path == tmp_path.resolve() / ".new.running"
     (tmp_path / "empty").mkdir()
-    assert prepare_run_folder(tmp_path / "empty").stages.is_dir()
+    assert prepare_run_folder(tmp_path / "empty").path == tmp_path.resolve() / ".empty.running"
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["empty"]
 
 
 def test_a_folder_that_is_not_a_run_is_refused_and_left_alone(tmp_path) -> None:
@@ -38,13 +39,13 @@ def test_a_finished_run_is_replaced_only_when_asked(tmp_path) -> None:
     _manifest(run, "finished")
     with pytest.raises(InputError, match="--overwrite"):
         prepare_run_folder(run)
-    assert prepare_run_folder(run, overwrite=True).path == run.resolve()
+    assert prepare_run_folder(run, overwrite=True).path == tmp_path.resolve() / ".run.running"
 
 
 def test_an_unfinished_run_is_resumed(tmp_path) -> None:
     run = tmp_path / "run"
     _manifest(run, "running")
-    assert prepare_run_folder(run).path == run.resolve()
+    assert prepare_run_folder(run).path == tmp_path.resolve() / ".run.running"
     with pytest.raises(InputError, match="expected 'finished'"):
         finished_run(run)
 

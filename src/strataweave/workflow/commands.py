@@ -51,8 +51,10 @@ def check_command(args: argparse.Namespace, argv: list[str], feedback: Feedback)
 def assign_command(args: argparse.Namespace, argv: list[str], feedback: Feedback) -> int:
     from strataweave.caution import CAUTION
     from strataweave.files import guarded, write_table
-    from strataweave.workflow.assign import assign_new_patients
+    from strataweave.workflow.assign import assign_new_patients, check_table_out
 
+    if args.out is not None:
+        check_table_out(args.out, args.run_dir, dict(args.modality), force=args.force)
     table = assign_new_patients(args.run_dir, dict(args.modality))
     if args.out is None:
         print(f"# {CAUTION}")

@@ -80,7 +80,7 @@ def render_report(run_dir: Path, formats, feedback: Feedback | None = None) -> N
 
 
 def write_outputs(folder: RunFolder, flow: Workflow, stage_results: dict, manifest: dict, feedback: Feedback) -> str:
-    """Write every output of the run folder; returns a one-line summary of the run."""
+    """Write every output of the run folder; returns a one-line summary of the run (without its path)."""
     grouping = reported_grouping(stage_results)
     groups_given = "final_fit" not in stage_results
     results = build_results(flow, stage_results, grouping, groups_given)
@@ -105,4 +105,4 @@ def write_outputs(folder: RunFolder, flow: Workflow, stage_results: dict, manife
     extra = ""
     if "selection" in results:
         extra = f" (recommended {results['selection']['recommended']})"
-    return f"{folder.path}: {len(grouping.names)} {what}{extra} ({sizes}); research use only"
+    return f"{len(grouping.names)} {what}{extra} ({sizes}); research use only"

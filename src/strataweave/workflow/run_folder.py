@@ -1,21 +1,28 @@
 """The run folder: recognise it, refuse what is not one, never overwrite a finished run unasked.
 
 A folder is a run folder when its `manifest.json` carries our format marker. The manifest
-says whether the run finished; an unfinished run (interrupted, killed) is resumed by
-running the same command again.
+says whether the run finished. A run is built in a hidden sibling folder that is renamed
+into place only when it finishes; an interrupted one stays there and is resumed by running
+the same command again.
 """
 
 from __future__ import annotations
 
+import fcntl
 import json
+import os
 import shutil
+from contextlib import contextmanager
+from datetime import datetime, timezone
 from pathlib import Path
+from typing import Callable, Iterator
 
 from strataweave.errors import InputError
 from strataweave.files import atomic_write_text
 
 RUN_FORMAT = "strataweave run folder"
 MANIFEST = "manifest.json"
+LOCK = ".lock"
 OUTPUTS = (
     "results.json", "assignments.tsv", "rank_selection.tsv", "survival.tsv", "clinical.tsv", "enrichment.tsv",
     "report.html", "slides.pdf", "stages/figure_data.npz", "markers", "model", "figures",
@@ -59,23 +66,78 @@ class RunFolder:
                 path.unlink(missing_ok=True)
 
 
+def staging_folder(out: Path) -> RunFolder:
+    """The hidden sibling of `out` a run is built in until it finishes (kept for resuming)."""
+    return RunFolder(out.parent / f".{out.name}.running")
+
+
 def prepare_run_folder(path: str | Path, overwrite: bool = False) -> RunFolder:
-    """A run folder to write into: new, empty, or an unfinished (or, if asked, finished) run."""
-    folder = RunFolder(Path(path).expanduser().resolve())
-    if folder.path.exists() and not folder.path.is_dir():
-        raise InputError(f"{folder.path}: exists and is not a folder, expected a new or run folder for --out")
-    if folder.path.is_dir() and any(folder.path.iterdir()):
+    """The staging folder for a run into `path` (new, empty, unfinished or, if asked, finished); creates nothing."""
+    out = Path(path).expanduser().resolve()
+    folder = RunFolder(out)
+    if out.exists() and not out.is_dir():
+        raise InputError(f"{out}: exists and is not a folder, expected a new or run folder for --out")
+    if out.is_dir() and any(out.iterdir()):
         manifest = folder.read_manifest()
         if manifest is None:
-            raise InputError(
-                f"{folder.path}: folder is not empty and has no run manifest, expected a new, empty or run folder for --out"
-            )
+            raise InputError(f"{out}: folder is not empty and has no run manifest, expected a new, empty or run folder for --out")
         if manifest.get("status") == "finished" and not overwrite:
+            raise InputError(f"{out}: holds a finished run, expected a new folder (or pass --overwrite to replace it)")
+    return staging_folder(out)
+
+
+def start_staging(staging: RunFolder) -> bool:
+    """Create the staging folder; False if it was there already (a run to resume)."""
+    try:
+        staging.path.mkdir(parents=True)
+    except FileExistsError:
+        return False
+    return True
+
+
+def seed_cache(staging: RunFolder, out: Path) -> None:
+    """Start the staging stage cache from the one of a run already at `out`, if any."""
+    earlier = RunFolder(out).stages
+    if earlier.is_dir():
+        shutil.copytree(earlier, staging.stages)
+    staging.stages.mkdir(exist_ok=True)
+
+
+@contextmanager
+def run_lock(folder: RunFolder, notice: Callable[[str], None]) -> Iterator[None]:
+    """Hold an OS lock on `folder` (PID and start time in its lock file); refuse if another process holds it."""
+    path = folder.path / LOCK
+    with open(path, "a+", encoding="utf-8") as handle:
+        handle.seek(0)
+        try:
+            fcntl.flock(handle, fcntl.LOCK_EX | fcntl.LOCK_NB)
+        except BlockingIOError:
             raise InputError(
-                f"{folder.path}: holds a finished run, expected a new folder (or pass --overwrite to replace it)"
-            )
-    folder.stages.mkdir(parents=True, exist_ok=True)
-    return folder
+                f"{folder.path}: locked by {handle.read().strip() or 'another process'}, expected no other run into this --out"
+            ) from None
+        earlier = handle.read().strip()
+        if earlier:
+            notice(f"{folder.path}: taking over the lock of {earlier}, which is no longer running")
+        handle.truncate(0)
+        handle.write(f"PID {os.getpid()} started {datetime.now(timezone.utc).isoformat(timespec='seconds')}\n")
+        handle.flush()
+        try:
+            yield
+        finally:
+            path.unlink(missing_ok=True)
+
+
+def publish(staging: RunFolder, out: Path) -> None:
+    """Move the finished staging folder to `out`; an earlier run there is replaced only now."""
+    (staging.path / LOCK).unlink()
+    if out.exists():
+        retired = out.parent / f".{out.name}.replaced"
+        shutil.rmtree(retired, ignore_errors=True)
+        out.rename(retired)
+        staging.path.rename(out)
+        shutil.rmtree(retired)
+    else:
+        staging.path.rename(out)
 
 
 def finished_run(path: str | Path) -> RunFolder:

@@ -8,9 +8,11 @@ so the tables come out byte for byte the same.
 from __future__ import annotations
 
 import dataclasses
+import shutil
 import time
 from pathlib import Path
 
+from strataweave.errors import InputError
 from strataweave.files import sha256_file
 from strataweave.seeding import run_seeds
 from strataweave.workflow.cache import StageCache, stage_key
@@ -20,7 +22,9 @@ from strataweave.workflow.loading import check_columns
 from strataweave.workflow.manifest import input_hashes, new_manifest, now_text
 from strataweave.workflow.pipeline import Pipeline
 from strataweave.workflow.progress import Feedback
-from strataweave.workflow.run_folder import RunFolder, prepare_run_folder
+from strataweave.workflow.run_folder import (
+    RunFolder, prepare_run_folder, publish, run_lock, seed_cache, start_staging,
+)
 
 class RunRecorder:
     """Keeps manifest.json current as stages start and finish, and tells the user."""
@@ -53,18 +57,36 @@ def run_workflow(
     With `groups_file` (a grouping the user brings) the run evaluates that grouping instead
     of finding subtypes: load, prepare (when there are modalities), evaluate, report.
     """
-    from strataweave.workflow.outputs import write_outputs
-    from strataweave.workflow.stages import build_stages
-
     feedback = feedback or Feedback()
-    groups = read_groups(groups_file) if groups_file is not None else None
     folder = prepare_run_folder(out, overwrite=overwrite)
+    out = Path(out).expanduser().resolve()
+    groups = read_groups(groups_file) if groups_file is not None else None
     hashes = input_hashes(flow)
     seeds = run_seeds(flow.seed)
     manifest = new_manifest(flow, "evaluate" if groups is not None else "run", argv, hashes, seeds)
     if groups_file is not None:
         hashes["groups"] = sha256_file(groups_file)
         manifest["inputs"][str(Path(groups_file).resolve())] = hashes["groups"]
+    fresh = start_staging(folder)
+    try:
+        with run_lock(folder, feedback.say):
+            if fresh:
+                seed_cache(folder, out)
+            summary = _run_stages(flow, folder, manifest, hashes, seeds, feedback, groups)
+            publish(folder, out)
+    except InputError:
+        if fresh:  # bad input: leave nothing behind (a resumed run keeps its cache)
+            shutil.rmtree(folder.path, ignore_errors=True)
+        raise
+    return f"{out}: {summary}"
+
+
+def _run_stages(flow: Workflow, folder: RunFolder, manifest: dict, hashes: dict, seeds: dict,
+                feedback: Feedback, groups: object) -> str:
+    """Every stage and the outputs, into the staging folder; the manifest ends 'finished'."""
+    from strataweave.workflow.outputs import write_outputs
+    from strataweave.workflow.stages import build_stages
+
     folder.write_manifest(manifest)
     recorder = RunRecorder(folder, manifest, feedback)
     cache = StageCache(folder.stages)
