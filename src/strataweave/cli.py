@@ -119,6 +119,7 @@ def build_parser() -> argparse.ArgumentParser:
     compare.add_argument("run_a", type=Path, help="first run folder")
     compare.add_argument("run_b", type=Path, help="second run folder")
     compare.add_argument("--out", type=Path, help="folder for the comparison tables (default: print only)")
+    compare.add_argument("--force", action="store_true", help="replace comparison tables already in --out")
 
     report = verb("report", "render report.html, slides.pdf and figures/ again from a run folder")
     report.add_argument("run_dir", type=Path, help="a finished run folder")

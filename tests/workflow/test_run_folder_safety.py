@@ -35,8 +35,8 @@ def test_failed_overwrite_leaves_the_earlier_run_intact(tiny_files) -> None:
     assert sorted(p.name for p in tiny_files.iterdir()) == ["clinical.tsv", "flow.toml", "rna.tsv", "run"]
 
 
-def _finished_run(files):
-    run = files / "done"
+def _finished_run(files, name: str = "done"):
+    run = files / name
     run.mkdir()
     manifest = {"format": RUN_FORMAT, "status": "finished", "inputs": {str((files / "clinical.tsv").resolve()): "0"},
                 "workflow": {"path": str(files / "flow.toml")}}
@@ -85,3 +85,18 @@ def test_the_stale_lock_of_a_dead_process_is_taken_over_with_a_notice(tmp_path) 
     with run_lock(staging, notices.append):
         assert (staging.path / ".lock").read_text().startswith(f"PID {os.getpid()} started ")
     assert len(notices) == 1 and "PID 999999999" in notices[0] and "no longer running" in notices[0]
+
+
+def test_compare_writes_neither_into_a_finished_run_nor_over_earlier_tables_unasked(tiny_files, capsys) -> None:
+    run_a, run_b = _finished_run(tiny_files, "a"), _finished_run(tiny_files, "b")
+    before = {path: path.read_bytes() for path in tiny_files.rglob("*") if path.is_file()}
+    assert main(["compare", str(run_a), str(run_b), "--out", str(run_b)]) == 2
+    assert "inside the finished run folder" in capsys.readouterr().err
+    assert {path: path.read_bytes() for path in tiny_files.rglob("*") if path.is_file()} == before
+    out = tiny_files / "cmp"
+    assert main(["compare", str(run_a), str(run_b), "--out", str(out)]) == 0
+    (out / "flow.tsv").write_text("mine\n")
+    assert main(["compare", str(run_a), str(run_b), "--out", str(out)]) == 2
+    assert "--force" in capsys.readouterr().err and (out / "flow.tsv").read_text() == "mine\n"
+    assert main(["compare", str(run_a), str(run_b), "--out", str(out), "--force"]) == 0
+    assert (out / "flow.tsv").read_text() != "mine\n"

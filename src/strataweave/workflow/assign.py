@@ -14,7 +14,7 @@ import pandas as pd
 from strataweave.data.readers import read_matrix
 from strataweave.errors import InputError
 from strataweave.subtypes.model import ModelModality, SubtypeModel
-from strataweave.workflow.run_folder import RunFolder, finished_run
+from strataweave.workflow.run_folder import check_new_file, finished_run
 
 
 def _read_new_matrix(path: Path, modality: ModelModality, features: np.ndarray) -> pd.DataFrame:
@@ -49,22 +49,9 @@ def assign_new_patients(run_dir: str | Path, files: dict[str, str | Path]) -> pd
     return model.predict(raw, sources={name: str(path) for name, path in files.items()}).reset_index()
 
 
-def _same_file(a: Path, b: Path) -> bool:
-    return a == b or (a.exists() and b.exists() and a.samefile(b))
-
 
 def check_table_out(out: Path, run_dir: str | Path, files: dict[str, str | Path], force: bool = False) -> None:
-    """Refuse an `--out` that is an input (of this command or of the run) or inside a finished run folder;
-    an existing other file only with `force`."""
-    target = Path(out).expanduser().resolve()
+    """Refuse an `--out` that is an input (of this command or of the run), a file of a finished run, or
+    (without `force`) an existing file."""
     manifest = finished_run(run_dir).read_manifest()
-    inputs = [*files.values(), *manifest.get("inputs", {}), manifest.get("workflow", {}).get("path", "")]
-    if any(_same_file(target, Path(path).expanduser().resolve()) for path in inputs if path):
-        raise InputError(f"{out}: is an input of this command or of the run, expected a new file for --out")
-    for parent in target.parents:
-        if (RunFolder(parent).read_manifest() or {}).get("status") == "finished":
-            raise InputError(f"{out}: is inside the finished run folder {parent}, expected a path outside any run folder")
-    if target.is_dir():
-        raise InputError(f"{out}: is a folder, expected a file path for --out")
-    if target.exists() and not force:
-        raise InputError(f"{out}: already exists, expected a new file (or pass --force to replace it)")
+    check_new_file(out, [*files.values(), *manifest.get("inputs", {}), manifest.get("workflow", {}).get("path", "")], force)

@@ -68,7 +68,7 @@ def assign_command(args: argparse.Namespace, argv: list[str], feedback: Feedback
 def compare_command(args: argparse.Namespace, argv: list[str], feedback: Feedback) -> int:
     from strataweave.workflow.comparison import compare_runs
 
-    summary = compare_runs(args.run_a, args.run_b, args.out)
+    summary = compare_runs(args.run_a, args.run_b, args.out, force=args.force)
     print(summary)
     return 0
 

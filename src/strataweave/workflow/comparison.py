@@ -11,7 +11,9 @@ from strataweave.caution import CAUTION
 from strataweave.errors import InputError
 from strataweave.files import atomic_write_text, write_table
 from strataweave.subtypes.compare import compare_partitions, split_flow
-from strataweave.workflow.run_folder import finished_run
+from strataweave.workflow.run_folder import check_new_file, finished_run
+
+COMPARISON_FILES = ("comparison.json", "contingency.tsv", "flow.tsv")
 
 
 def read_assignments(run_dir: str | Path) -> pd.Series:
@@ -26,8 +28,12 @@ def read_assignments(run_dir: str | Path) -> pd.Series:
     return table.set_index("patient_id")["subtype"]
 
 
-def compare_runs(run_a: str | Path, run_b: str | Path, out: str | Path | None = None) -> str:
-    """A printable summary; with `out`, comparison.json, contingency.tsv and flow.tsv written there."""
+def compare_runs(run_a: str | Path, run_b: str | Path, out: str | Path | None = None, force: bool = False) -> str:
+    """A printable summary; with `out`, comparison.json, contingency.tsv and flow.tsv written there
+    (existing ones replaced only with `force`, never inside a finished run)."""
+    if out is not None:
+        for name in COMPARISON_FILES:
+            check_new_file(Path(out) / name, [], force)
     a, b = read_assignments(run_a), read_assignments(run_b)
     comparison = compare_partitions(a, b)
     flow = split_flow(a, b)
@@ -36,9 +42,9 @@ def compare_runs(run_a: str | Path, run_b: str | Path, out: str | Path | None = 
         out = Path(out)
         summary = {"caution": CAUTION, "run_a": str(Path(run_a).resolve()), "run_b": str(Path(run_b).resolve()),
                    **comparison.to_dict()}
-        atomic_write_text(out / "comparison.json", json.dumps(summary, indent=1) + "\n")
-        write_table(contingency.reset_index(), out / "contingency.tsv", comment=CAUTION)
-        write_table(flow, out / "flow.tsv", comment=CAUTION)
+        atomic_write_text(out / COMPARISON_FILES[0], json.dumps(summary, indent=1) + "\n")
+        write_table(contingency.reset_index(), out / COMPARISON_FILES[1], comment=CAUTION)
+        write_table(flow, out / COMPARISON_FILES[2], comment=CAUTION)
     return (
         f"ARI {comparison.ari:.3f}, NMI {comparison.nmi:.3f} over {comparison.n_patients} shared patients "
         f"(rows: {Path(run_a).name}, columns: {Path(run_b).name})\n{contingency.to_string()}"

@@ -151,3 +151,21 @@ def finished_run(path: str | Path) -> RunFolder:
             f"{folder.path}: manifest status is {manifest.get('status')!r}, expected 'finished' (rerun the command to finish it)"
         )
     return folder
+
+
+def _same_file(a: Path, b: Path) -> bool:
+    return a == b or (a.exists() and b.exists() and a.samefile(b))
+
+
+def check_new_file(path: str | Path, inputs: list[str | Path], force: bool = False) -> None:
+    """Refuse to write `path` over an input or inside a finished run folder, or over an existing file unless `force`."""
+    target = Path(path).expanduser().resolve()
+    if any(_same_file(target, Path(name).expanduser().resolve()) for name in inputs if name):
+        raise InputError(f"{path}: is an input of this command or of the run, expected a new file for --out")
+    for parent in target.parents:
+        if (RunFolder(parent).read_manifest() or {}).get("status") == "finished":
+            raise InputError(f"{path}: is inside the finished run folder {parent}, expected a path outside any run folder")
+    if target.is_dir():
+        raise InputError(f"{path}: is a folder, expected a file path for --out")
+    if target.exists() and not force:
+        raise InputError(f"{path}: already exists, expected a new file (or pass --force to replace it)")
