@@ -20,6 +20,10 @@ def test_bad_input_exits_2_and_leaves_no_folder(tiny_files, capsys) -> None:
     assert main(["run", str(tiny_files / "flow.toml"), "--out", str(out), "--quiet"]) == 2
     assert "rna.tsv" in capsys.readouterr().err
     assert sorted(p.name for p in tiny_files.iterdir()) == ["clinical.tsv", "flow.toml", "rna.tsv"]
+    assert main(["run", str(tiny_files / "flow.toml"), "--out", str(tiny_files / "new" / "deeper" / "run"), "--quiet"]) == 2
+    assert main(["run", str(tiny_files / "flow.toml"), "--out", str(tiny_files / "rna.tsv" / "run"), "--quiet"]) == 2
+    assert "a file is in the way" in capsys.readouterr().err
+    assert sorted(p.name for p in tiny_files.iterdir()) == ["clinical.tsv", "flow.toml", "rna.tsv"]
 
 
 def test_failed_overwrite_leaves_the_earlier_run_intact(tiny_files) -> None:

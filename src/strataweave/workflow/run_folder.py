@@ -86,13 +86,18 @@ def prepare_run_folder(path: str | Path, overwrite: bool = False) -> RunFolder:
     return staging_folder(out)
 
 
-def start_staging(staging: RunFolder) -> bool:
-    """Create the staging folder; False if it was there already (a run to resume)."""
+def start_staging(staging: RunFolder) -> Path | None:
+    """Create the staging folder and missing parents: the top-most folder created, None if it was there (to resume)."""
+    top = staging.path
+    while not top.parent.exists():
+        top = top.parent
     try:
         staging.path.mkdir(parents=True)
-    except FileExistsError:
-        return False
-    return True
+    except (FileExistsError, NotADirectoryError):
+        if not staging.path.is_dir():
+            raise InputError(f"{staging.path.parent}: a file is in the way, expected folders down to --out") from None
+        return None
+    return top
 
 
 def seed_cache(staging: RunFolder, out: Path) -> None:

@@ -67,16 +67,16 @@ def run_workflow(
     if groups_file is not None:
         hashes["groups"] = sha256_file(groups_file)
         manifest["inputs"][str(Path(groups_file).resolve())] = hashes["groups"]
-    fresh = start_staging(folder)
+    created = start_staging(folder)
     try:
         with run_lock(folder, feedback.say):
-            if fresh:
+            if created is not None:
                 seed_cache(folder, out)
             summary = _run_stages(flow, folder, manifest, hashes, seeds, feedback, groups)
             publish(folder, out)
     except InputError:
-        if fresh:  # bad input: leave nothing behind (a resumed run keeps its cache)
-            shutil.rmtree(folder.path, ignore_errors=True)
+        if created is not None:  # bad input: leave nothing behind (a resumed run keeps its cache)
+            shutil.rmtree(created, ignore_errors=True)
         raise
     return f"{out}: {summary}"
 
