@@ -41,11 +41,11 @@ REFERENCES: dict[str, str] = {
 }
 
 
-PARTITION_WORDS = {
-    "joint_model": "the joint factorisation's labels (k-means on the unit-length rows of the patient factor)",
-    "fused_graph": "the spectral clustering of the {graph}",
-    "concatenation": "the spectral clustering of the concatenated scaled modalities (a k-nearest-neighbour graph "
-                     "with the mean degree of the {graph})",
+PARTITION_WORDS = {  # candidate -> (name, how it was made)
+    "joint_model": ("the joint factorisation's labels", " (k-means on the unit-length rows of the patient factor)"),
+    "fused_graph": ("the spectral clustering of the {graph}", ""),
+    "concatenation": ("the spectral clustering of the concatenated scaled modalities",
+                      " (a k-nearest-neighbour graph with the mean degree of the {graph})"),
 }
 
 
@@ -55,11 +55,11 @@ def _partition_phrase(selection: dict, count: int, graph_name: str, cite) -> str
     sources = [key for key in PARTITION_WORDS if f"modularity_{key}" in rows.get(count, {})]
     taken = rows.get(count, {}).get("source", "joint_model")
     if len(sources) < 2:
-        return f"The subtypes were {PARTITION_WORDS[taken].format(graph=graph_name)}."
-    words = ", ".join(PARTITION_WORDS[key].format(graph=graph_name) for key in sources)
+        return f"The subtypes were {''.join(PARTITION_WORDS[taken]).format(graph=graph_name)}."
+    words = ", ".join("".join(PARTITION_WORDS[key]).format(graph=graph_name) for key in sources)
     return (f"At each count, and in every resample, the subtypes were the partition with the highest modularity on "
             f"the {graph_name}{cite('newman2006')} among {words}; at the chosen count this was "
-            f"{PARTITION_WORDS[taken].format(graph=graph_name).split(' (')[0]}.")
+            f"{PARTITION_WORDS[taken][0].format(graph=graph_name)}.")
 
 
 def _get(parameters: dict[str, Any], path: str) -> Any:

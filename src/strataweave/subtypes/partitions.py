@@ -23,11 +23,7 @@ from sklearn.neighbors import kneighbors_graph
 from strataweave.graph import modularity
 from strataweave.subtypes.baselines import graph_partitions
 
-PARTITION_SOURCES = {
-    "joint_model": "the joint NMF's labels",
-    "fused_graph": "spectral clustering of the fused graph",
-    "concatenation": "spectral clustering of the concatenated scaled modalities",
-}
+PARTITION_SOURCES = ("joint_model", "fused_graph", "concatenation")  # candidates, in order of preference on a tie
 JOINT_DIMENSIONS = 50  # principal components kept of the concatenation (its neighbours, not its detail)
 
 
@@ -60,5 +56,5 @@ def concatenation_partitions(coordinates: np.ndarray, counts, n_neighbours: int,
 def choose_partition(affinity: sp.csr_matrix, candidates: dict[str, np.ndarray]) -> tuple[str, np.ndarray, dict]:
     """(source, labels, modularity of every candidate) of the candidate with the highest modularity."""
     scores = {source: modularity(affinity, labels) for source, labels in candidates.items()}
-    best = max(scores, key=lambda source: (scores[source], -list(scores).index(source)))
+    best = max(scores, key=scores.get)  # max keeps the first of equal scores
     return best, candidates[best], scores
