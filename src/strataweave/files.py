@@ -4,12 +4,16 @@ from __future__ import annotations
 
 import hashlib
 import io
+import json
 import os
 import tempfile
+import zipfile
 from pathlib import Path
 
 import numpy as np
 import pandas as pd
+
+from strataweave.errors import DamagedFileError
 
 _FORMULA_STARTS = ("=", "+", "-", "@")
 
@@ -41,11 +45,60 @@ def atomic_write_text(path: str | os.PathLike, text: str) -> None:
     atomic_write_bytes(path, text.encode("utf-8"))
 
 
-def atomic_write_arrays(path: str | os.PathLike, arrays: dict[str, np.ndarray]) -> None:
-    """Named arrays as one `.npz` (read back with `allow_pickle=False`), written atomically."""
+def _npz_bytes(arrays: dict[str, np.ndarray]) -> bytes:
     buffer = io.BytesIO()
     np.savez(buffer, **arrays)
-    atomic_write_bytes(path, buffer.getvalue())
+    return buffer.getvalue()
+
+
+def atomic_write_arrays(path: str | os.PathLike, arrays: dict[str, np.ndarray]) -> None:
+    """Named arrays as one `.npz` (read back with `allow_pickle=False`), written atomically."""
+    atomic_write_bytes(path, _npz_bytes(arrays))
+
+
+CHECKSUMS = "checksums"
+
+
+def _record_digest(record: dict) -> str:
+    text = json.dumps(record, sort_keys=True, separators=(",", ":"), allow_nan=True)
+    return hashlib.sha256(text.encode("utf-8")).hexdigest()
+
+
+def write_checked(json_path: Path, npz_path: Path, record: dict, arrays: dict[str, np.ndarray], indent=None) -> None:
+    """`arrays` as an `.npz`, then `record` as JSON carrying the sha256 of both (each file written atomically)."""
+    data = _npz_bytes(arrays)
+    atomic_write_bytes(npz_path, data)
+    sums = {"arrays": hashlib.sha256(data).hexdigest(), "record": _record_digest(record)}
+    atomic_write_text(json_path, json.dumps({**record, CHECKSUMS: sums}, indent=indent, allow_nan=True) + "\n")
+
+
+def read_checked(json_path: Path, npz_path: Path) -> tuple[dict, dict[str, np.ndarray]]:
+    """The record and arrays `write_checked` wrote; DamagedFileError naming the file that does not read back.
+
+    A record without checksums (written before they were kept) is read unchecked.
+    """
+    try:
+        record = json.loads(json_path.read_text(encoding="utf-8"))
+    except (OSError, UnicodeDecodeError) as error:
+        raise DamagedFileError(json_path, f"unreadable ({getattr(error, 'strerror', None) or error})") from None
+    except ValueError as error:
+        raise DamagedFileError(json_path, f"not valid JSON ({error})") from None
+    if not isinstance(record, dict):
+        raise DamagedFileError(json_path, f"holds a JSON {type(record).__name__}, not an object")
+    sums = record.pop(CHECKSUMS, None)
+    if sums is not None and (not isinstance(sums, dict) or sums.get("record") != _record_digest(record)):
+        raise DamagedFileError(json_path, "checksum differs from the content (changed or damaged since written)")
+    try:
+        data = npz_path.read_bytes()
+    except OSError as error:
+        raise DamagedFileError(npz_path, f"unreadable ({error.strerror or error})") from None
+    if sums is not None and sums.get("arrays") != hashlib.sha256(data).hexdigest():
+        raise DamagedFileError(npz_path, "checksum differs from the one recorded beside it (changed or damaged since written)")
+    try:
+        with np.load(io.BytesIO(data), allow_pickle=False) as archive:
+            return record, {name: archive[name] for name in archive.files}
+    except (OSError, ValueError, EOFError, zipfile.BadZipFile) as error:
+        raise DamagedFileError(npz_path, f"not a readable array archive ({error})") from None
 
 
 def guard_cell(value: object) -> object:

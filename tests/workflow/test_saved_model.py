@@ -22,7 +22,7 @@ def _model_folder(folder, description) -> None:
     [
         ({"format": MODEL_FORMAT, "subtypes": ["S1", "S2"]}, "'modalities'"),
         ({"format": MODEL_FORMAT, "modalities": [{"name": "rna"}]}, "'kind'"),
-        (["not", "a", "model"], "'format'"),
+        (["not", "a", "model"], "model.json: holds a JSON list"),
         ({"format": "other/1"}, "'format'"),
     ],
 )

@@ -4,6 +4,8 @@ from __future__ import annotations
 
 from pathlib import Path
 
+from strataweave.data.synthetic import make_synthetic_cohort
+
 MINIMAL = """\
 [cohort]
 clinical = "clinical.tsv"
@@ -26,3 +28,57 @@ def write_tiny_files(folder: Path) -> Path:
     )
     (folder / "flow.toml").write_text(MINIMAL)
     return folder
+
+
+LAYERS = {  # name: (kind, orientation of the synthetic cohort's table)
+    "rna": ("counts", "features_in_rows"),
+    "protein": ("abundance", "samples_in_rows"),
+    "mirna": ("counts", "samples_in_rows"),
+}
+SURVIVAL = ("os_months", "os_event")
+SETTINGS = """
+[factorization]
+restarts = 1
+max_iter = 100
+
+[subtypes]
+counts = [2, 3]
+min_size = 3
+{use_count}
+[resampling]
+resamples = 4
+restarts = 1
+
+[evaluation]
+permutations = 50
+monte_carlo = 100
+
+[report]
+formats = {formats}
+"""
+
+
+def write_workflow(folder: Path, modalities: dict[str, tuple[str, str]], survival: bool,
+                   formats: str = '["html"]', use_count: int | None = None) -> Path:
+    """flow.toml in `folder` reading clinical.tsv and <name>.tsv of each modality there."""
+    text = 'seed = 5\n[cohort]\nclinical = "clinical.tsv"\n'
+    if survival:
+        text += f'time_column = "{SURVIVAL[0]}"\nevent_column = "{SURVIVAL[1]}"\n'
+    for name, (kind, orientation) in modalities.items():
+        text += (f'\n[[modality]]\nname = "{name}"\npath = "{name}.tsv"\nkind = "{kind}"\n'
+                 f'orientation = "{orientation}"\ntop_features = 60\n')
+    use = f"use_count = {use_count}\n" if use_count else ""
+    (folder / "flow.toml").write_text(text + SETTINGS.format(formats=formats, use_count=use), encoding="utf-8")
+    return folder / "flow.toml"
+
+
+def write_synthetic_inputs(folder: Path, layers: tuple[str, ...], clinical_columns: list[str] | None = None,
+                           survival: bool = True, formats: str = '["html"]') -> Path:
+    """An invented 90-patient, 3-subtype cohort with the layers asked for; returns the workflow."""
+    folder.mkdir(parents=True, exist_ok=True)
+    cohort = make_synthetic_cohort(n_patients=90, n_subtypes=3, seed=5)
+    clinical = cohort.clinical if clinical_columns is None else cohort.clinical[clinical_columns]
+    clinical.to_csv(folder / "clinical.tsv", sep="\t", index_label="patient_id")
+    for name in layers:
+        cohort.tables[name].to_csv(folder / f"{name}.tsv", sep="\t")
+    return write_workflow(folder, {name: LAYERS[name] for name in layers}, survival, formats)

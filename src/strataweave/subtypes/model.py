@@ -9,7 +9,6 @@ farther from its nearest subtype than 99 % of the training patients is flagged.
 
 from __future__ import annotations
 
-import json
 from collections.abc import Mapping
 from dataclasses import dataclass
 from pathlib import Path
@@ -21,7 +20,7 @@ from strataweave.caution import CAUTION
 from strataweave.data.preprocess import Preprocessor
 from strataweave.errors import InputError
 from strataweave.factorize import JointNMF
-from strataweave.files import atomic_write_arrays, atomic_write_text
+from strataweave.files import read_checked, write_checked
 from strataweave.subtypes.projection import margin, placement, project_patients, subtype_scores
 from strataweave.subtypes.result import named_assignments, subtype_names
 
@@ -188,23 +187,17 @@ class SubtypeModel:
             ) from None
 
     def save(self, folder: str | Path) -> Path:
-        """Write `folder`/model.json and `folder`/arrays.npz (no pickle); returns the folder."""
+        """Write `folder`/model.json and `folder`/arrays.npz (no pickle, sha256 of both in model.json)."""
         folder = Path(folder)
         description, arrays = self.to_state()
-        atomic_write_arrays(folder / MODEL_ARRAYS, arrays)
-        atomic_write_text(folder / MODEL_JSON, json.dumps(description, indent=1) + "\n")
+        write_checked(folder / MODEL_JSON, folder / MODEL_ARRAYS, description, arrays, indent=1)
         return folder
 
     @classmethod
     def load(cls, folder: str | Path) -> SubtypeModel:
-        """The model that `save` wrote into `folder`."""
+        """The model that `save` wrote into `folder`; DamagedFileError naming a file that does not read back."""
         folder = Path(folder)
-        try:
-            description = json.loads((folder / MODEL_JSON).read_text(encoding="utf-8"))
-            with np.load(folder / MODEL_ARRAYS, allow_pickle=False) as archive:
-                arrays = {name: archive[name] for name in archive.files}
-        except (OSError, ValueError) as problem:
-            raise InputError(f"{folder}: no readable saved model ({problem}), expected model.json and arrays.npz") from None
+        description, arrays = read_checked(folder / MODEL_JSON, folder / MODEL_ARRAYS)
         return cls.from_state(description, arrays, source=str(folder))
 
     def _repr_html_(self) -> str:

@@ -3,7 +3,8 @@
 A result is stored under a key: the sha256 of the stage name, its parameters and the
 keys of the stages it reads, so changing one parameter changes the keys of exactly the
 stages that depend on it. The `.npz` is written first and the JSON last, each atomically,
-so a result counts as finished only once its JSON exists. Arrays are read back with
+so a result counts as finished only once its JSON exists; the JSON carries the sha256 of
+both, so an entry damaged later is told apart from a good one. Arrays are read back with
 `allow_pickle=False`; nothing is ever unpickled.
 """
 
@@ -13,12 +14,11 @@ import hashlib
 import json
 from pathlib import Path
 
-import numpy as np
-
-from strataweave.files import atomic_write_arrays, atomic_write_text
+from strataweave.errors import DamagedFileError
+from strataweave.files import read_checked, write_checked
 from strataweave.workflow.codec import decode, encode
 
-CACHE_FORMAT = 1
+CACHE_FORMAT = 2
 
 
 def _plain(obj: object) -> object:
@@ -50,29 +50,25 @@ class StageCache:
         return stem.with_suffix(".json"), stem.with_suffix(".npz")
 
     def has(self, stage: str, key: str) -> bool:
-        json_path, _ = self._paths(stage, key)
-        if not json_path.is_file():
-            return False
-        try:
-            return json.loads(json_path.read_text(encoding="utf-8")).get("key") == key
-        except (OSError, ValueError):
-            return False
+        """Whether an entry for `key` was finished (it may still turn out damaged when loaded)."""
+        return self._paths(stage, key)[0].is_file()
 
     def save(self, stage: str, key: str, result: object) -> None:
         """Store a stage result under its key: the JSON tree last, so a half-written entry never counts."""
         tree, arrays = encode(result)
         json_path, npz_path = self._paths(stage, key)
-        atomic_write_arrays(npz_path, arrays)
-        record = {"stage": stage, "key": key, "result": tree}
-        atomic_write_text(json_path, json.dumps(record, allow_nan=True))
+        write_checked(json_path, npz_path, {"stage": stage, "key": key, "result": tree}, arrays)
 
     def load(self, stage: str, key: str) -> object:
-        """The stage result stored under `key` (pandas, sparse and numpy objects rebuilt without pickle)."""
+        """The stage result stored under `key`; DamagedFileError if the entry does not read back as written."""
         json_path, npz_path = self._paths(stage, key)
-        record = json.loads(json_path.read_text(encoding="utf-8"))
-        with np.load(npz_path, allow_pickle=False) as archive:
-            arrays = {name: archive[name] for name in archive.files}
-        return decode(record["result"], arrays)
+        record, arrays = read_checked(json_path, npz_path)
+        if record.get("key") != key or "result" not in record:
+            raise DamagedFileError(json_path, f"holds no result for key {key[:16]}")
+        try:
+            return decode(record["result"], arrays)
+        except (KeyError, TypeError, ValueError, AttributeError) as error:
+            raise DamagedFileError(json_path, f"does not match its arrays ({type(error).__name__}: {error})") from None
 
     def prune(self, keep: dict[str, str]) -> None:
         """Delete cached results whose key is not the current key of their stage."""

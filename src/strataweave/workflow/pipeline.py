@@ -3,7 +3,8 @@
 Each `Stage` names the stages it reads and the parameters its result depends on. Keys
 chain: a stage's key covers its parameters and the keys of the stages it reads, so a
 changed parameter reruns exactly the stages downstream of it. Results are loaded from the
-cache only when something still to be computed needs them.
+cache only when something still to be computed needs them; a damaged entry is computed
+again, after a one-line notice.
 """
 
 from __future__ import annotations
@@ -12,7 +13,11 @@ import time
 from dataclasses import dataclass
 from typing import Callable, Protocol
 
+from strataweave.errors import DamagedFileError
 from strataweave.workflow.cache import StageCache, stage_key
+
+
+_MISSING = object()
 
 
 @dataclass(frozen=True)
@@ -29,6 +34,8 @@ class StageListener(Protocol):
     def stage_started(self, name: str, cached: bool) -> None: ...
 
     def stage_finished(self, name: str, key: str, seconds: float, cached: bool) -> None: ...
+
+    def notice(self, message: str) -> None: ...
 
 
 class Pipeline:
@@ -56,12 +63,10 @@ class Pipeline:
         if name in self._results:
             return self._results[name]
         stage, key = self.stages[name], self.keys[name]
-        cached = self.cache.has(name, key)
-        if cached:
-            self.listener.stage_started(name, cached=True)
-            start = time.perf_counter()
-            value = self.cache.load(name, key)
-        else:
+        start = time.perf_counter()
+        value = self._cached(name, key)
+        cached = value is not _MISSING
+        if not cached:
             inputs = {need: self.result(need) for need in stage.needs}
             self.listener.stage_started(name, cached=False)
             start = time.perf_counter()
@@ -70,3 +75,14 @@ class Pipeline:
         self.listener.stage_finished(name, key, time.perf_counter() - start, cached)
         self._results[name] = value
         return value
+
+    def _cached(self, name: str, key: str) -> object:
+        """The cached result of stage `name`, or _MISSING when there is none or it is damaged (with a notice)."""
+        if not self.cache.has(name, key):
+            return _MISSING
+        self.listener.stage_started(name, cached=True)
+        try:
+            return self.cache.load(name, key)
+        except DamagedFileError as damage:
+            self.listener.notice(f"{damage.path}: {damage.reason}; computing stage {name!r} again")
+            return _MISSING

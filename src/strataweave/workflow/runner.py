@@ -43,6 +43,9 @@ class RunRecorder:
         self.folder.write_manifest(self.manifest)
         self.feedback.detail(f"{name}: done in {seconds:.2f} s{' (cached)' if cached else ''}")
 
+    def notice(self, message: str) -> None:
+        self.feedback.say(message)
+
 
 def run_workflow(
     flow: Workflow,
