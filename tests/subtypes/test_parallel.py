@@ -103,3 +103,35 @@ def test_fingerprint_ignores_docstrings_comments_and_layout_but_not_code():
     changed = b'"""Module."""\n\ndef total(x):\n    """Sum."""\n    return x.sum(axis=0)\n'
     assert parallel._code_without_docstrings(original) == parallel._code_without_docstrings(reworded)
     assert parallel._code_without_docstrings(original) != parallel._code_without_docstrings(changed)
+
+
+class _KeptInMemory:
+    """A checkpoint holding finished tasks in a dict, as a resumed batch would find them."""
+
+    def __init__(self):
+        self.kept = {}
+
+    def finished(self, function, task_params):
+        return {i: self.kept[seed] for i, seed in enumerate(task_params) if seed in self.kept}
+
+    def keep(self, function, seed, result):
+        self.kept[seed] = result
+
+
+def test_tasks_a_checkpoint_holds_are_not_run_again_and_results_keep_their_order(shared):
+    seeds = child_seeds(5, 5)
+    checkpoint = _KeptInMemory()
+    whole = run_tasks(seeded_projection_labels, shared, seeds, ParallelSettings("serial"))
+    run_tasks(seeded_projection_labels, shared, seeds[1:4:2], ParallelSettings("serial", checkpoint=checkpoint))
+    assert set(checkpoint.kept) == {seeds[1], seeds[3]}
+    ran, ticks = [], []
+
+    def counting(shared, seed):
+        ran.append(seed)
+        return seeded_projection_labels(shared, seed)
+
+    resumed = run_tasks(counting, shared, seeds, ParallelSettings("serial", checkpoint=checkpoint), ticks.append)
+    assert ran == [seeds[0], seeds[2], seeds[4]] and ticks == [2, 3, 4, 5]
+    for (rows, labels, _), (rows_whole, labels_whole, _) in zip(resumed, whole):
+        assert np.array_equal(rows, rows_whole) and np.array_equal(labels, labels_whole)
+    assert set(checkpoint.kept) == set(seeds)

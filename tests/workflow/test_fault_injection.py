@@ -1,4 +1,4 @@
-"""Faults injected on purpose: damaged cache and model files.
+"""Faults injected on purpose: damaged cache and model files, a sweep killed midway.
 
 Each test breaks one thing the way a crash, a careless user or a flaky machine would and
 checks what the program promises: the exit code, one line naming the file and the reason,
@@ -8,12 +8,20 @@ protein, four resamples, no report) so the module stays fast.
 
 from __future__ import annotations
 
+import os
 import shutil
+import signal
+import subprocess
+import sys
+import time
 from pathlib import Path
 
+import numpy as np
 import pytest
 
 from strataweave.cli import main
+from strataweave.subtypes.tasks import ResampleFit, fit_resample
+from strataweave.workflow.resample_checkpoint import ResampleCheckpoint
 from workflow_files import write_synthetic_inputs
 
 TABLES = ["assignments.tsv", "rank_selection.tsv", "survival.tsv", "clinical.tsv", "results.json"]
@@ -79,3 +87,44 @@ def test_a_damaged_model_file_exits_2_naming_it(copy_of, capsys, damage, name):
     assert main(["assign", str(copy_of), "--modality", f"rna={rna}"]) == 2
     err = capsys.readouterr().err.strip()
     assert len(err.splitlines()) == 1 and str(copy_of / "model" / name) in err, err
+
+
+def _kill_once_resamples_are_kept(command: list[str], work_glob: str, staging: Path, at_least: int) -> int:
+    """Start the run, SIGKILL it once `at_least` resample tasks are kept; its exit code."""
+    process = subprocess.Popen(command, stderr=subprocess.DEVNULL, start_new_session=True)
+    deadline = time.monotonic() + 120
+    while process.poll() is None and time.monotonic() < deadline:
+        if len(list(staging.glob(work_glob))) >= at_least:
+            os.killpg(process.pid, signal.SIGKILL)
+            break
+        time.sleep(0.005)
+    return process.wait(timeout=60)
+
+
+def test_a_sweep_killed_midway_resumes_after_its_finished_resamples_byte_identical(tmp_path, capsys):
+    flow = write_synthetic_inputs(tmp_path / "cohort", ("rna", "protein"), formats="[]")
+    flow.write_text(flow.read_text().replace("resamples = 4", "resamples = 16"))
+    assert run(flow, tmp_path / "whole") == 0
+    out = tmp_path / "resumed"
+    command = [sys.executable, "-m", "strataweave.cli", "run", str(flow), "--out", str(out), "--quiet"]
+    staging = tmp_path / ".resumed.running"
+    assert _kill_once_resamples_are_kept(command, "stages/sweep-*.work/resample-*.json", staging, 3) == -signal.SIGKILL
+    kept = len(list(staging.glob("stages/sweep-*.work/resample-*.json")))
+    assert 3 <= kept < 16 and not list(staging.glob("stages/sweep-*.json"))
+
+    assert main(["run", str(flow), "--out", str(out)]) == 0
+    assert f"sweep: {kept} of 16 resamples already finished, resuming after them" in capsys.readouterr().err
+    assert same_tables(out, tmp_path / "whole")
+    assert not list(out.glob("stages/*.work"))
+
+
+def test_a_damaged_kept_resample_is_run_again_with_a_notice(tmp_path):
+    notices = []
+    checkpoint = ResampleCheckpoint(tmp_path, notices.append)
+    fit = ResampleFit(np.array([[0, 1, -1]], dtype=np.int16), 2)
+    for task in [(0, 7), (1, 8)]:
+        checkpoint.keep(fit_resample, task, fit)
+    _flip_a_byte(tmp_path / "resample-1-8.npz")
+    kept = checkpoint.finished(fit_resample, [(0, 7), (1, 8)])
+    assert list(kept) == [0] and np.array_equal(kept[0].labels, fit.labels) and kept[0].unconverged == 2
+    assert "resample-1-8.npz: checksum differs" in notices[0] and notices[0].endswith("running that resample again")

@@ -18,11 +18,11 @@ from __future__ import annotations
 import ast
 from collections.abc import Callable, Iterator, Sequence
 from contextlib import ExitStack, contextmanager
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from functools import cache
 from hashlib import sha256
 from pathlib import Path
-from typing import Any
+from typing import Any, Protocol
 
 import joblib
 import numpy as np
@@ -36,6 +36,16 @@ from strataweave.errors import InputError
 BACKENDS = ("serial", "processes", "dask")
 
 
+class TaskCheckpoint(Protocol):
+    """Keeps the results of finished tasks outside the batch, so a batch run again skips them."""
+
+    def finished(self, function: Callable, task_params: Sequence[Any]) -> dict[int, Any]:
+        """Results already kept for `function`, by position in `task_params`."""
+
+    def keep(self, function: Callable, params: Any, result: Any) -> None:
+        """Keep the result of one finished task."""
+
+
 @dataclass(frozen=True)
 class ParallelSettings:
     """Where the tasks run.
@@ -45,6 +55,7 @@ class ParallelSettings:
     with ``n_jobs`` single-threaded workers for the run and stops it afterwards.
     connect_timeout: seconds to wait for the scheduler before giving up with an InputError.
     local_cluster_processes: whether that LocalCluster's workers are processes (else threads).
+    checkpoint: where finished tasks are kept as they finish, so an interrupted batch resumes.
     """
 
     backend: str = "serial"
@@ -52,6 +63,7 @@ class ParallelSettings:
     scheduler: str | None = None
     connect_timeout: float = 10.0
     local_cluster_processes: bool = True
+    checkpoint: TaskCheckpoint | None = field(default=None, compare=False, repr=False)
 
     def __post_init__(self) -> None:
         if self.backend not in BACKENDS:
@@ -187,20 +199,26 @@ class TaskRunner:
         `function` must be importable at module level (it travels to other processes).
         `shared` holds the large inputs, sent once per worker where the backend allows
         (memory-mapped for local processes, scattered for Dask). `progress`, if given, is
-        called with ``done_before`` plus the number of finished tasks after each one.
+        called with ``done_before`` plus the number of finished tasks after each one. Tasks
+        the settings' checkpoint already holds are not run again.
         """
         if self._stack is None:
             raise RuntimeError("TaskRunner.map called outside its 'with' block")
+        checkpoint = self.settings.checkpoint
+        done = checkpoint.finished(function, task_params) if checkpoint is not None else {}
+        todo = [(position, params) for position, params in enumerate(task_params) if position not in done]
         calls = (
-            joblib.delayed(_single_threaded)(function, shared, params, code_fingerprint()) for params in task_params
+            joblib.delayed(_single_threaded)(function, shared, params, code_fingerprint()) for _, params in todo
         )
+        keep = None if checkpoint is None else (lambda params, result: checkpoint.keep(function, params, result))
         if self.settings.backend == "dask":
             with joblib.parallel_config(backend="dask", scatter=[shared]):
-                return _collect(joblib.Parallel(return_as="generator")(calls), progress, done_before)
+                fresh = joblib.Parallel(return_as="generator")(calls)
+                return _collect(len(task_params), done, zip(todo, fresh), keep, progress, done_before)
         n_jobs = 1 if self.settings.backend == "serial" else self.settings.n_jobs
         backend = "sequential" if n_jobs == 1 else "loky"
         parallel = joblib.Parallel(n_jobs=n_jobs, backend=backend, return_as="generator")
-        return _collect(parallel(calls), progress, done_before)
+        return _collect(len(task_params), done, zip(todo, parallel(calls)), keep, progress, done_before)
 
 
 def run_tasks(
@@ -215,10 +233,22 @@ def run_tasks(
         return runner.map(function, shared, task_params, progress)
 
 
-def _collect(results: Iterator[Any], progress: Callable[[int], None] | None, done_before: int) -> list[Any]:
-    collected = []
-    for result in results:
-        collected.append(result)
+def _collect(
+    n_tasks: int,
+    done: dict[int, Any],
+    fresh: Iterator[tuple[tuple[int, Any], Any]],
+    keep: Callable[[Any, Any], None] | None,
+    progress: Callable[[int], None] | None,
+    done_before: int,
+) -> list[Any]:
+    """Results in task order: those `done` before, then each fresh one (kept as it arrives)."""
+    collected = dict(done)
+    if progress is not None and collected:
+        progress(done_before + len(collected))
+    for (position, params), result in fresh:
+        if keep is not None:
+            keep(params, result)
+        collected[position] = result
         if progress is not None:
             progress(done_before + len(collected))
-    return collected
+    return [collected[position] for position in range(n_tasks)]

@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import hashlib
 import json
+import shutil
 from pathlib import Path
 
 from strataweave.errors import DamagedFileError
@@ -49,6 +50,10 @@ class StageCache:
         stem = self.folder / f"{stage}-{key[:16]}"
         return stem.with_suffix(".json"), stem.with_suffix(".npz")
 
+    def work_folder(self, stage: str, key: str) -> Path:
+        """Where an unfinished stage keeps partial work across interruptions (gone once the stage is saved)."""
+        return self.folder / f"{stage}-{key[:16]}.work"
+
     def has(self, stage: str, key: str) -> bool:
         """Whether an entry for `key` was finished (it may still turn out damaged when loaded)."""
         return self._paths(stage, key)[0].is_file()
@@ -58,6 +63,7 @@ class StageCache:
         tree, arrays = encode(result)
         json_path, npz_path = self._paths(stage, key)
         write_checked(json_path, npz_path, {"stage": stage, "key": key, "result": tree}, arrays)
+        shutil.rmtree(self.work_folder(stage, key), ignore_errors=True)
 
     def load(self, stage: str, key: str) -> object:
         """The stage result stored under `key`; DamagedFileError if the entry does not read back as written."""
@@ -71,7 +77,9 @@ class StageCache:
             raise DamagedFileError(json_path, f"does not match its arrays ({type(error).__name__}: {error})") from None
 
     def prune(self, keep: dict[str, str]) -> None:
-        """Delete cached results whose key is not the current key of their stage."""
+        """Delete cached results whose key is not the current key of their stage, and all partial work."""
+        for path in self.folder.glob("*.work"):
+            shutil.rmtree(path, ignore_errors=True)
         wanted = {path.name for stage, key in keep.items() for path in self._paths(stage, key)}
         for path in self.folder.glob("*-*.json"):
             if path.name not in wanted and path.stem.rsplit("-", 1)[0] in keep:

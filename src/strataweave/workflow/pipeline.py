@@ -4,7 +4,8 @@ Each `Stage` names the stages it reads and the parameters its result depends on.
 chain: a stage's key covers its parameters and the keys of the stages it reads, so a
 changed parameter reruns exactly the stages downstream of it. Results are loaded from the
 cache only when something still to be computed needs them; a damaged entry is computed
-again, after a one-line notice.
+again, after a one-line notice. A stage that `keeps_work` finds, under `inputs[WORK]`, a
+folder for partial work that outlives an interruption.
 """
 
 from __future__ import annotations
@@ -18,6 +19,7 @@ from strataweave.workflow.cache import StageCache, stage_key
 
 
 _MISSING = object()
+WORK = "work_folder"
 
 
 @dataclass(frozen=True)
@@ -28,6 +30,7 @@ class Stage:
     needs: tuple[str, ...]
     parameters: dict
     compute: Callable[[dict[str, object]], object]
+    keeps_work: bool = False
 
 
 class StageListener(Protocol):
@@ -68,6 +71,8 @@ class Pipeline:
         cached = value is not _MISSING
         if not cached:
             inputs = {need: self.result(need) for need in stage.needs}
+            if stage.keeps_work:
+                inputs[WORK] = self.cache.work_folder(name, key)
             self.listener.stage_started(name, cached=False)
             start = time.perf_counter()
             value = stage.compute(inputs)

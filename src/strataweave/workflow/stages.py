@@ -19,7 +19,7 @@ from strataweave.workflow.evaluating import EVALUATION_LAYOUT, evaluate_grouping
 from strataweave.workflow.graphing import build_graph
 from strataweave.workflow.grouping import analysis_patients, given_grouping
 from strataweave.workflow.loading import load_inputs
-from strataweave.workflow.pipeline import Stage
+from strataweave.workflow.pipeline import WORK, Stage
 from strataweave.workflow.preparing import RESULT_LAYOUT, prepare_cohort
 from strataweave.workflow.progress import Feedback
 from strataweave.workflow.sweeping import (
@@ -88,7 +88,9 @@ def build_stages(
         Stage("graphs", ("prepare",), dataclasses.asdict(flow.graph),
               lambda inputs: build_graph(flow, inputs["prepare"], feedback)),
         Stage("sweep", ("prepare", "graphs"), sweep_parameters,
-              lambda inputs: run_sweep(flow, inputs["prepare"], inputs["graphs"], seeds["sweep"], feedback)),
+              lambda inputs: run_sweep(flow, inputs["prepare"], inputs["graphs"], seeds["sweep"], feedback,
+                                       inputs[WORK]),
+              keeps_work=True),
         Stage("select", ("sweep",), {"use_count": flow.subtypes.use_count},
               lambda inputs: select_count(flow, inputs["sweep"])),
         Stage("final_fit", ("prepare", "sweep", "select"), {},

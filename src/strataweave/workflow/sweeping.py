@@ -10,6 +10,7 @@ centres and the distance beyond which a new patient is far from every subtype.
 from __future__ import annotations
 
 from dataclasses import replace
+from pathlib import Path
 
 import pandas as pd
 
@@ -24,6 +25,7 @@ from strataweave.subtypes.sweep import planned_tasks, sweep_subtype_counts
 from strataweave.workflow.config import Workflow
 from strataweave.workflow.preparing import aligned_views
 from strataweave.workflow.progress import Feedback
+from strataweave.workflow.resample_checkpoint import ResampleCheckpoint
 
 
 def factorization_options(flow: Workflow, prepared: dict) -> dict:
@@ -59,12 +61,16 @@ def sweep_settings(flow: Workflow) -> SweepSettings:
     )
 
 
-def run_sweep(flow: Workflow, prepared: dict, graphs: dict, seed: int, feedback: Feedback) -> dict:
-    """Sweep the workflow's counts; the result as a cacheable record (see `sweep_from_record`)."""
+def run_sweep(
+    flow: Workflow, prepared: dict, graphs: dict, seed: int, feedback: Feedback, work: Path | None = None
+) -> dict:
+    """Sweep the workflow's counts, each finished resample kept in `work` (if given) for a resumed
+    sweep; the result as a cacheable record (see `sweep_from_record`)."""
     settings = sweep_settings(flow)
     views = dict(zip(prepared["views"], aligned_views(prepared)))
     parallel = ParallelSettings(
-        backend=flow.resampling.backend, n_jobs=flow.resampling.jobs, scheduler=flow.resampling.scheduler
+        backend=flow.resampling.backend, n_jobs=flow.resampling.jobs, scheduler=flow.resampling.scheduler,
+        checkpoint=None if work is None else ResampleCheckpoint(work, feedback.say),
     )
     with feedback.bar("subtype count sweep", planned_tasks(flow.subtypes.counts, settings)) as progress:
         result = sweep_subtype_counts(
