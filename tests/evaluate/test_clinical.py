@@ -115,3 +115,26 @@ def test_monte_carlo_is_seeded():
     first = associate_clinical(grouping, clinical, variables=["stage"], n_monte_carlo=300, random_state=9)
     again = associate_clinical(grouping, clinical, variables=["stage"], n_monte_carlo=300, random_state=9)
     assert first.summary == again.summary
+
+
+def test_clinical_summary_by_group_counts_levels_and_gives_median_and_iqr():
+    ids = [f"P{i}" for i in range(8)]
+    grouping = pd.Series(["A", "A", "A", "B", "B", "B", "B", "B"], index=ids)
+    clinical = pd.DataFrame({"sex": ["F", "F", "M", "M", "M", "F", None, "M"],
+                             "age": [40.0, 50.0, 60.0, 30.0, 31.0, 32.0, 33.0, 70.0]}, index=ids)
+    result = associate_clinical(grouping, clinical)
+    table = result.tables["by_group"]
+    association = result.tables["association"].set_index("variable")
+    assert list(table.columns) == ["variable", "level", "A", "B", "test", "p_adjusted"]
+    sex = table[table["variable"] == "sex"].set_index("level")
+    assert sex.loc["F", ["A", "B"]].tolist() == ["2 (67%)", "1 (25%)"]  # B: 4 patients with a known sex
+    assert sex.loc["M", ["A", "B"]].tolist() == ["1 (33%)", "3 (75%)"]
+    assert sex.loc["missing", ["A", "B"]].tolist() == ["0", "1"]
+    assert sex["test"].tolist() == [association.at["sex", "test"], "", ""]
+    age = table[table["variable"] == "age"].iloc[0]
+    b_ages = np.array([30.0, 31.0, 32.0, 33.0, 70.0])
+    q1, median, q3 = np.percentile(b_ages, [25, 50, 75])  # numpy's linear quantiles, as pandas
+    assert age["level"] == "median [IQR]" and age["A"] == "50 [45\u201355]"
+    assert age["B"] == f"{median:.3g} [{q1:.3g}\u2013{q3:.3g}]"
+    assert age["p_adjusted"] == pytest.approx(association.at["age", "p_adjusted"])
+    assert result.summary["by_group"][0]["variable"] == "sex"

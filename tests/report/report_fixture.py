@@ -57,8 +57,8 @@ def make_results(modality_names=("rna", "methylation"), feature_prefix="FX", tit
             "patients": n - 5 * (i + 1),
             "features_in_file": 2000,
             "filters": [
-                {"step": "missing", "features_after": 1900},
-                {"step": "variance", "features_after": 1200},
+                {"step": "missing_filter", "features_after": 1900},
+                {"step": "variance_filter", "features_after": 1200},
                 {"step": "top_features", "features_after": 500},
             ],
             "missing_fraction": 0.02 * (i + 1),
@@ -127,6 +127,13 @@ def make_results(modality_names=("rna", "methylation"), feature_prefix="FX", tit
             "resampling": {"resamples": 20, "fraction": 0.8, "backend": "serial"},
             "subtypes": {"counts": counts, "pac_window": [0.1, 0.9], "min_size": 10},
             "evaluation": {"permutations": 1000, "marker_test": "mannwhitney", "covariates": ["age_years"]},
+            "modalities": [
+                {"name": name, "weight": 1.0, "kind": "counts" if i == 0 else "beta", "prior_count": 0.5,
+                 "beta_to_m": True, "quantile_normalise": False, "max_missing_fraction": 0.2, "min_variance": 1e-8,
+                 "top_features": 500, "rank_by": "variance", "impute": "knn" if i == 0 else "median",
+                 "impute_neighbours": 10, "scale": "zscore", "non_negative": "split"}
+                for i, name in enumerate(modality_names)
+            ],
         },
     }
     arrays = {
@@ -148,8 +155,8 @@ def make_results(modality_names=("rna", "methylation"), feature_prefix="FX", tit
             "logrank": {"statistic": 14.2, "df": 2, "p_value": 0.00082, "p_value_permutation": 0.001,
                         "permutations": 1000},
             "cox": [
-                {"term": "subtype S2 vs S1", "hazard_ratio": 2.1, "ci_lower": 1.2, "ci_upper": 3.6, "p_value": 0.01},
-                {"term": "subtype S3 vs S1", "hazard_ratio": 0.7, "ci_lower": 0.35, "ci_upper": 1.4, "p_value": 0.3},
+                {"term": "group S2 vs S1", "hazard_ratio": 2.1, "ci_lower": 1.2, "ci_upper": 3.6, "p_value": 0.01},
+                {"term": "group S3 vs S1", "hazard_ratio": 0.7, "ci_lower": 0.35, "ci_upper": 1.4, "p_value": 0.3},
                 {"term": "age_years", "hazard_ratio": 1.01, "ci_lower": 0.99, "ci_upper": 1.03, "p_value": 0.4},
             ],
             "concordance": 0.66,
@@ -165,12 +172,24 @@ def make_results(modality_names=("rna", "methylation"), feature_prefix="FX", tit
                 arrays[f"km_{g}_{key}"] = values
         arrays["km_at_risk_time"] = np.array([0.0, 12.0, 24.0, 36.0, 48.0])
         arrays["km_at_risk"] = np.array([[20, 17, 12, 8, 3], [22, 15, 9, 4, 1], [18, 16, 14, 11, 7]])
-    results["clinical"] = [
-        {"variable": clinical_name, "test": "chi-square", "effect_size": 0.31, "effect_size_name": "Cramer's V",
-         "p_value": 0.004, "p_adjusted": 0.008, "dropped": 2},
-        {"variable": "age_years", "test": "Kruskal-Wallis", "effect_size": 0.02,
-         "effect_size_name": "epsilon squared", "p_value": 0.5, "p_adjusted": 0.5, "dropped": 0},
+    results["clinical"] = [  # as the workflow writes them: machine names of tests and effect sizes
+        {"variable": clinical_name, "kind": "categorical", "test": "chi_square", "statistic": 12.3, "df": 4,
+         "p_value": 0.004, "p_adjusted": 0.008, "effect_size": 0.31, "effect_size_name": "cramers_v",
+         "anova_statistic": None, "anova_p_value": None, "n_used": n - 2, "n_missing": 2, "status": "tested",
+         "dropped": 2},
+        {"variable": "age_years", "kind": "continuous", "test": "kruskal_wallis", "statistic": 1.4, "df": 2,
+         "p_value": 0.5, "p_adjusted": 0.5, "effect_size": 0.02, "effect_size_name": "epsilon_squared",
+         "anova_statistic": 0.8, "anova_p_value": 0.45, "n_used": n, "n_missing": 0, "status": "tested",
+         "dropped": 0},
     ]
+    results["clinical_summary"] = {"groups": LABELS, "rows": [
+        {"variable": clinical_name, "level": "I", "S1": "12 (60%)", "S2": "5 (25%)", "S3": "9 (45%)",
+         "test": "chi_square", "p_adjusted": 0.008},
+        {"variable": clinical_name, "level": "II", "S1": "8 (40%)", "S2": "15 (75%)", "S3": "11 (55%)",
+         "test": "", "p_adjusted": None},
+        {"variable": "age_years", "level": "median [IQR]", "S1": "61 [55\u201368]", "S2": "58 [50\u201366]",
+         "S3": "63 [57\u201370]", "test": "kruskal_wallis", "p_adjusted": 0.5},
+    ]}
     if markers:
         results["markers"] = []
         results["enrichment"] = []
@@ -185,7 +204,7 @@ def make_results(modality_names=("rna", "methylation"), feature_prefix="FX", tit
             arrays[f"markers_{i}_patient_code"] = patients
             results["markers"].append({
                 "modality": name,
-                "test": "Mann-Whitney U",
+                "test": "mann_whitney",
                 "rows": [{"subtype": LABELS[c], "feature": str(f), "effect": 1.5, "auc": 0.85, "p_adjusted": 0.001}
                          for f, c in zip(features, feature_code)],
             })
@@ -194,6 +213,9 @@ def make_results(modality_names=("rna", "methylation"), feature_prefix="FX", tit
              "p_adjusted": 10.0 ** (-(4 - j))}
             for s in range(3) for j in range(3)
         ]
+        results["enrichment_summary"] = {"rank_test_rows": [
+            {"subtype": LABELS[s], "gene_set": f"{feature_prefix} set {s}-0", "set_size": 20, "auc": 0.8 - 0.05 * s,
+             "z": 4.0, "p_value": 1e-4, "p_adjusted": 1e-3} for s in range(3)]}
     return results, arrays
 
 

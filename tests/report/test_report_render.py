@@ -140,7 +140,7 @@ def test_caution_on_every_slide(rendered):
     text = subprocess.run(["pdftotext", str(rendered / "slides.pdf"), "-"], capture_output=True,
                           text=True, check=True).stdout
     pages = [p for p in text.split("\f") if p.strip()]
-    assert len(pages) == 13
+    assert len(pages) == 12  # the most a deck has
     for number, content in enumerate(pages, start=1):
         assert " ".join(CAUTION.split()) in " ".join(content.split()), f"caution missing on slide {number}"
         assert "PX-0" not in content

@@ -107,8 +107,14 @@ def test_run_folder_follows_the_contract(finished, cohort) -> None:
     assert {"statistic", "df", "p_value", "p_value_permutation"} <= set(logrank)
     assert logrank["df"] == PLANTED - 1
     assert {"term", "hazard_ratio", "ci_lower", "ci_upper", "p_value"} <= set(results["survival"]["cox"][0])
-    columns = list(read_table(finished / "assignments.tsv").columns)
-    assert columns == ["patient_id", "subtype", "confidence", *[f"score_S{i}" for i in range(1, PLANTED + 1)]]
+    assignments = read_table(finished / "assignments.tsv")
+    assert list(assignments.columns) == ["patient_id", "subtype", "confidence", "core",
+                                         *[f"score_S{i}" for i in range(1, PLANTED + 1)]]
+    assert assignments["core"].sum() == results["subtypes"]["core_patients"]
+    summary = read_table(finished / "clinical_summary.tsv")
+    assert list(summary.columns) == ["variable", "level", *results["clinical_summary"]["groups"], "test", "p_adjusted"]
+    rank_test = read_table(finished / "enrichment_rank_test.tsv")
+    assert {"subtype", "gene_set", "auc", "p_adjusted"} <= set(rank_test.columns)
     assert len(read_table(finished / "rank_selection.tsv")) == 3
     assert sorted(p.name for p in (finished / "markers").iterdir()) == sorted(f"{name}.tsv" for name in FILES)
     assert (finished / "model" / "model.json").is_file() and (finished / "stages" / "figure_data.npz").is_file()

@@ -12,6 +12,7 @@ import pandas as pd
 from scipy import stats
 
 from strataweave.errors import InputError
+from strataweave.evaluate.clinical_summary import describe_by_group
 from strataweave.evaluate.contingency import contingency_test
 from strataweave.evaluate.grouping import align, check_grouping, group_order
 from strataweave.evaluate.multiple_testing import bh_adjust
@@ -116,7 +117,9 @@ def associate_clinical(
     level_counts = pd.concat(counts, ignore_index=True)[["variable", "group", "level", "count"]] if counts else pd.DataFrame(columns=["variable", "group", "level", "count"])
     continuous = pd.concat(summaries, ignore_index=True) if summaries else pd.DataFrame(columns=["group", "n", "mean", "q1", "median", "q3", "variable"])
     continuous = continuous[["variable", "group", "n", "mean", "q1", "median", "q3"]]
-    tables = {"association": association, "level_counts": level_counts, "continuous_summary": continuous}
+    by_group = describe_by_group(labels_all, table, association, groups)
+    tables = {"association": association, "level_counts": level_counts, "continuous_summary": continuous,
+              "by_group": by_group}
     summary = {
         "n_patients": len(labels_all),
         "n_excluded_patients": int(len(labelled) - len(labels_all)),
@@ -124,5 +127,6 @@ def associate_clinical(
         "variables": association.assign(dropped=association["n_missing"]),
         "level_counts": level_counts.assign(group=level_counts["group"].astype(str)),
         "continuous_summary": continuous.assign(group=continuous["group"].astype(str)),
+        "by_group": by_group,
     }
     return Evaluation(tables=tables, summary=plain(summary))

@@ -69,6 +69,13 @@ def _rows(meaning: str, keys: Mapping[str, Entry], required: bool = True) -> Ent
 
 _P = "may be null when not tested"
 
+_GENE_SET_ROW = {
+    "subtype": Entry("text", "subtype label"),
+    "gene_set": Entry("text", "gene-set name (user text)"),
+    "set_size": Entry("integer", "set members among the measured features"),
+    "p_adjusted": Entry("number", "Benjamini-Hochberg adjusted p", nullable=True),
+}
+
 #: The keys of results.json that the report reads.
 RESULTS: dict[str, Entry] = {
     "caution": Entry("text", "the caution text, strataweave.caution.CAUTION, verbatim"),
@@ -258,6 +265,23 @@ RESULTS: dict[str, Entry] = {
         },
         required=False,
     ),
+    "clinical_summary": _section(
+        "each clinical variable described per group (the table of clinical_summary.tsv)",
+        {
+            "groups": Entry("texts", "group names, in the order of their columns"),
+            "rows": _rows(
+                "one row per level of a categorical variable (n (%)) or per continuous variable (median [IQR]); "
+                "one text key per group holds the cell",
+                {
+                    "variable": Entry("text", "clinical column name (user text)"),
+                    "level": Entry("text", "level, 'median [IQR]' or 'missing'"),
+                    "test": Entry("text", "the variable's test on its first row, else empty"),
+                    "p_adjusted": Entry("number", "Benjamini-Hochberg adjusted p on the first row", nullable=True),
+                },
+            ),
+        },
+        required=False,
+    ),
     "markers": _rows(
         "per modality, in the order of the npz arrays markers_{i}_*",
         {
@@ -278,12 +302,17 @@ RESULTS: dict[str, Entry] = {
     ),
     "enrichment": _rows(
         "over-represented gene sets per subtype (top rows per subtype; extra columns shown)",
+        {**_GENE_SET_ROW, "overlap": Entry("integer", "subtype markers in the set")},
+        required=False,
+    ),
+    "enrichment_summary": _section(
+        "counts behind the enrichment and the rank-based competitive gene-set test",
         {
-            "subtype": Entry("text", "subtype label"),
-            "gene_set": Entry("text", "gene-set name (user text)"),
-            "overlap": Entry("integer", "subtype markers in the set"),
-            "set_size": Entry("integer", "set members among the measured features"),
-            "p_adjusted": Entry("number", "Benjamini-Hochberg adjusted p", nullable=True),
+            "rank_test_rows": _rows(
+                "gene sets whose members' marker scores rank above the other features' (top rows per subtype)",
+                {**_GENE_SET_ROW, "auc": Entry("number", "chance that a member outranks a non-member, 0..1")},
+                required=False,
+            ),
         },
         required=False,
     ),

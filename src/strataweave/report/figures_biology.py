@@ -17,6 +17,7 @@ Canvas = Figure | SubFigure
 MAX_LABELLED_FEATURES = 45
 SETS_PER_SUBTYPE = 6
 HEATMAP_LIMIT = 3.0
+COMPACT_INCHES = 8.0  # narrower canvases (a slide's panels) leave out feature names and the legend
 
 
 def _boundaries(codes: np.ndarray) -> np.ndarray:
@@ -50,20 +51,29 @@ def draw_marker_heatmap(run: RunView, fig: Canvas, index: int) -> None:
         axis.set_yticks([])
         axis.spines[:].set_visible(False)
     ax.tick_params(left=False, labelleft=False, bottom=False, labelbottom=False)
-    if len(features) <= MAX_LABELLED_FEATURES:
+    compact = fig.bbox.width / fig.dpi < COMPACT_INCHES
+    if len(features) <= MAX_LABELLED_FEATURES and not compact:
         ax.yaxis.tick_right()
         ax.set_yticks(range(len(features)), [shorten(plot_text(f), 28) for f in features],
                       fontsize=max(7, 12 - len(features) // 10))
         ax.tick_params(right=False, labelright=True)
         left.tick_params(left=False, labelleft=False)
-    ax.set_xlabel(f"patients measured in this modality, ordered by subtype (n = {len(patient_code)})")
+    ax.set_xlabel(f"{len(patient_code)} patients, ordered by subtype" if compact else
+                  f"patients measured in this modality, ordered by subtype (n = {len(patient_code)})")
     fig.colorbar(image, ax=ax, location="bottom", shrink=0.4, pad=0.02,
-                 label="value on the normalised scale, centred and scaled per feature (SD units)")
-    handles = [Line2D([], [], color=c, linewidth=8, label=plot_text(label))
-               for c, label in zip(subtype_colours(count), run.labels)]
-    fig.legend(handles=handles, loc="outside right upper", frameon=False)
+                 label="SD units" if compact else "value on the normalised scale, centred and scaled per feature (SD units)")
+    if compact:
+        for code in np.unique(patient_code):
+            columns = np.flatnonzero(patient_code == code)
+            top.text(columns.mean(), -0.6, shorten(plot_text(run.labels[code]), 10), ha="center", va="bottom",
+                     fontsize=10)
+    else:
+        handles = [Line2D([], [], color=c, linewidth=8, label=plot_text(label))
+                   for c, label in zip(subtype_colours(count), run.labels)]
+        fig.legend(handles=handles, loc="outside right upper", frameon=False)
     modality = run.results["markers"][index]["modality"]
-    fig.suptitle(f"Top markers per subtype: {shorten(plot_text(modality), 30)}")
+    fig.suptitle(shorten(plot_text(modality), 30) if compact else
+                 f"Top markers per subtype: {shorten(plot_text(modality), 30)}")
 
 
 def enrichment_rows(run: RunView) -> list[dict]:

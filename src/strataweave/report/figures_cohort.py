@@ -11,6 +11,7 @@ from strataweave.report.figure_style import plain_log_ticks
 from strataweave.report.formatting import plot_text, shorten
 from strataweave.report.palette import MARKERS, NEUTRAL, NEUTRAL_LIGHT, NEUTRAL_SHADES, SEQUENTIAL, subtype_colours
 from strataweave.report.run_folder import RunView
+from strataweave.report.wording import words
 
 Canvas = Figure | SubFigure
 
@@ -46,7 +47,7 @@ def draw_filters(run: RunView, fig: Canvas) -> None:
     """Features kept after each filter step, one grey line per modality (log scale)."""
     ax = fig.subplots()
     for i, row in enumerate(run.results["cohort"]["modalities"]):
-        steps = ["in file"] + [step["step"] for step in row["filters"]]
+        steps = ["in file"] + [words(step["step"]) for step in row["filters"]]
         kept = [row["features_in_file"]] + [step["features_after"] for step in row["filters"]]
         ax.plot(range(len(steps)), kept, marker=MARKERS[i % len(MARKERS)], color=NEUTRAL_SHADES[i % len(NEUTRAL_SHADES)],
                 linewidth=2, markersize=9, label=shorten(plot_text(row["name"]), 24))

@@ -11,6 +11,7 @@ from strataweave.report.figure_style import plain_log_ticks
 from strataweave.report.formatting import format_p, plot_text, shorten
 from strataweave.report.palette import NEUTRAL, NEUTRAL_SHADES, subtype_colour
 from strataweave.report.run_folder import RunView
+from strataweave.report.wording import term_words
 
 Canvas = Figure | SubFigure
 LINE_STYLES = ("-", "--", ":", "-.")
@@ -92,7 +93,7 @@ def draw_forest(run: RunView, fig: Canvas) -> None:
     if values:
         low, high = min(values + [1.0]), max(values + [1.0])
         ax.set_xlim(low / 1.3, high * 1.3)
-    ax.set_yticks(positions, [shorten(plot_text(r["term"]), 32) for r in rows])
+    ax.set_yticks(positions, [shorten(plot_text(term_words(r["term"], run.covariates)), 32) for r in rows])
     ax.set_ylim(len(rows) - 0.5, -0.5)
     ax.set_xlabel("hazard ratio (95% CI, log scale; 1 = no difference)")
     concordance = run.results["survival"].get("concordance")

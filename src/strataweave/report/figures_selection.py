@@ -16,6 +16,7 @@ from matplotlib.path import Path as CurvePath
 from strataweave.report.formatting import plot_text
 from strataweave.report.palette import NEUTRAL, NEUTRAL_SHADES, SEQUENTIAL, subtype_colour
 from strataweave.report.run_folder import RunView
+from strataweave.report.wording import words
 
 Canvas = Figure | SubFigure
 
@@ -57,9 +58,10 @@ def draw_criteria(run: RunView, fig: Canvas) -> None:
         ax.plot(counts, y, color=NEUTRAL, marker="o", linewidth=2, markersize=8)
         ax.axvline(run.results["subtype_count"], color=NEUTRAL, linestyle="--", linewidth=1.2)
         hint = {True: " \u2191 better", False: " \u2193 better"}.get(directions.get(name), "")
-        ax.set_title(plot_text(name) + hint, fontsize=13)
-        ax.set_ylabel(plot_text(CRITERION_UNITS.get(name, name)), fontsize=11)
+        ax.set_title(plot_text(words(name)) + hint, fontsize=13)
+        ax.set_ylabel(plot_text(CRITERION_UNITS.get(name, words(name))), fontsize=11)
         ax.set_xticks(counts)
+        ax.tick_params(labelbottom=True)
     for ax in axes[len(criteria):]:
         ax.set_visible(False)
     for ax in axes[-columns:]:

@@ -12,11 +12,16 @@ from jinja2 import Environment, PackageLoader, StrictUndefined
 from strataweave.caution import CAUTION
 from strataweave.report.figure_catalogue import DrawnFigure
 from strataweave.report.figures_outcome import logrank_sentence
+from strataweave.report.findings import findings
 from strataweave.report.methods_text import REFERENCES, methods_paragraph
 from strataweave.report.run_folder import RunView
-from strataweave.report.tables import criteria_table, modalities_table, rows_table
+from strataweave.report.tables import clinical_summary_table, criteria_table, modalities_table, rows_table
+from strataweave.report.wording import term_words, words
 
 TEMPLATE = "report.html.j2"
+#: The clinical tests as shown; clinical.tsv keeps every column (kind, status, the ANOVA beside Kruskal-Wallis).
+CLINICAL_COLUMNS = ("variable", "test", "statistic", "df", "effect_size", "effect_size_name", "p_value", "p_adjusted",
+                    "n_used", "n_missing")
 
 
 def _environment() -> Environment:
@@ -76,10 +81,16 @@ def _partition_rows(selection: dict[str, Any]) -> list[dict[str, Any]]:
              for key, value in row.items()} for row in selection.get("partitions") or []]
 
 
+def _split_modalities(results: dict[str, Any]) -> list[str]:
+    """Modalities whose kept features reach the factorisation as two columns each (positive and negative parts)."""
+    return [str(m["name"]) for m in (results.get("parameters") or {}).get("modalities") or []
+            if m.get("non_negative") == "split"]
+
+
 def report_context(run: RunView, figures: list[DrawnFigure]) -> dict[str, Any]:
     """Everything the template shows, as plain values; user strings stay raw (the template escapes them)."""
     results = run.results
-    paragraph, cited = methods_paragraph(results)
+    paragraph, cited = methods_paragraph(results, run.manifest.get("strataweave_version"))
     survival = results.get("survival")
     context: dict[str, Any] = {
         "caution": results.get("caution") or CAUTION,
@@ -97,11 +108,18 @@ def report_context(run: RunView, figures: list[DrawnFigure]) -> dict[str, Any]:
         "partitions": rows_table(_partition_rows(results.get("selection") or {})),
         "subtypes": rows_table(_subtype_rows(run)),
         "show_patient_ids": run.show_patient_ids,
+        "subtypes_explained": None if run.groups_given else results["subtypes"].get("core_threshold"),
         "baselines": rows_table(results["baselines"]) if run.has("baselines") else None,
         "survival": survival,
         "logrank": logrank_sentence(survival) if survival else None,
-        "clinical": rows_table(results["clinical"]) if run.has("clinical") else None,
-        "markers": [{"modality": block["modality"], "test": block.get("test"), "table": rows_table(block["rows"])}
+        "findings": findings(run),
+        "split_features": _split_modalities(results),
+        "clinical": rows_table(results["clinical"], CLINICAL_COLUMNS) if run.has("clinical") else None,
+        "clinical_summary": clinical_summary_table(results["clinical_summary"]) if run.has("clinical_summary")
+        else None,
+        "rank_test": rows_table((results.get("enrichment_summary") or {}).get("rank_test_rows") or []),
+        "markers": [{"modality": block["modality"], "test": words(block["test"]) if block.get("test") else None,
+                     "table": rows_table(block["rows"])}
                     for block in results.get("markers") or []],
         "enrichment": rows_table(results["enrichment"]) if run.has("enrichment") else None,
         "not_run": {section: run.not_run_sentences(section)
@@ -111,8 +129,10 @@ def report_context(run: RunView, figures: list[DrawnFigure]) -> dict[str, Any]:
         "reproducibility": _reproducibility(run),
     }
     if survival:
+        shown = {**survival, "cox": [{**row, "term": term_words(row["term"], run.covariates)}
+                                     for row in survival.get("cox") or []]}
         context["survival_tables"] = [
-            (title, rows_table(survival[key]))
+            (title, rows_table(shown[key]))
             for key, title in (("cox", "Cox model"), ("medians", "Median survival"),
                                ("rmst", "Restricted mean survival time"), ("pairwise", "Pairwise log-rank tests"))
             if survival.get(key)

@@ -5,7 +5,9 @@ from __future__ import annotations
 from typing import Any
 
 from strataweave.report.formatting import format_value
+from strataweave.report.methods_preprocessing import preprocessing_sentences
 from strataweave.report.run_folder import not_run_name
+from strataweave.report.wording import column_words, listing, words
 
 REFERENCES: dict[str, str] = {
     "lee1999": "Lee DD, Seung HS. Learning the parts of objects by non-negative matrix factorization. "
@@ -78,8 +80,9 @@ def _phrase(template: str, **values: Any) -> str:
     return template.format(**{k: format_value(v) for k, v in values.items()})
 
 
-def methods_paragraph(results: dict[str, Any]) -> tuple[str, list[str]]:
-    """A methods paragraph from results.json and the keys of the references it cites, in order."""
+def methods_paragraph(results: dict[str, Any], version: str | None = None) -> tuple[str, list[str]]:
+    """A methods paragraph from results.json (and the strataweave `version` of the manifest) with the keys
+    of the references it cites, in order."""
     p = results.get("parameters") or {}
     cited: list[str] = []
 
@@ -93,11 +96,13 @@ def methods_paragraph(results: dict[str, Any]) -> tuple[str, list[str]]:
     single = len(modalities) == 1
     names = ", ".join(f"{m['name']} ({m['kind']}, {m['patients']} patients)" for m in modalities)
     layers = "one omics layer" if single else f"{len(modalities)} omics layers"
+    software = f"strataweave {version}" if version else "strataweave (version not recorded)"
     sentences = [f"{results['cohort']['patients']} patients were analysed"
-                 + (f" with {layers}: {names}." if modalities else ".")]
+                 + (f" with {layers}: {names}" if modalities else "") + f", using {software}."]
+    sentences += preprocessing_sentences(p.get("modalities") or [])
     if results.get("graph"):
         graph = results["graph"]
-        kernel = _phrase(" with the {kernel} kernel", kernel=_get(p, "graph.kernel"))
+        kernel = _phrase(" with the {kernel} kernel", kernel=_words_or_none(_get(p, "graph.kernel")))
         metric = _phrase(" on {metric} distances", metric=_get(p, "graph.metric"))
         built = (f"a patient-similarity graph keeping {graph['neighbours']} neighbours per patient was built"
                  f"{kernel}{metric}{cite('wang2014')}")
@@ -131,6 +136,8 @@ def methods_paragraph(results: dict[str, Any]) -> tuple[str, list[str]]:
             f"the cophenetic correlation{cite('brunet2004')}, the eigengap of the {graph_name}{cite('luxburg2007')} "
             "and further criteria listed in the report.")
         sentences.append(_partition_phrase(selection, results["subtype_count"], graph_name, cite))
+        sentences.append(_phrase("A patient was called core when its mean consensus with its own subtype across the "
+                                 "resamples was at least {t}.", t=_get(p, "subtypes.core_threshold")))
         chosen = "fixed by the user" if selection.get("overridden") else "recommended"
         reason = selection["reason"].rstrip()
         sentences.append(f"{results['subtype_count']} subtypes were used ({chosen}). Reason: {reason}"
@@ -142,7 +149,7 @@ def methods_paragraph(results: dict[str, Any]) -> tuple[str, list[str]]:
         permutations = _phrase(" and by {n} label permutations", n=results["survival"]["logrank"].get("permutations")
                                or _get(p, "evaluation.permutations"))
         covariates = _get(p, "evaluation.covariates")
-        adjusted = f", adjusted for {format_value(covariates)}" if covariates else ""
+        adjusted = f", adjusted for {listing([column_words(str(c)) for c in covariates])}" if covariates else ""
         sentences.append(
             f"Survival was summarised by Kaplan-Meier estimates{cite('kaplan1958')} and compared by the log-rank "
             f"test{permutations}; hazard ratios came from a Cox model{cite('cox1972')}{adjusted}, whose "
@@ -161,7 +168,9 @@ def methods_paragraph(results: dict[str, Any]) -> tuple[str, list[str]]:
         sentences.append(f"Markers of each subtype against the rest were ranked by {test} per feature.")
     if results.get("enrichment"):
         sentences.append("Over-representation of each subtype's markers in gene sets was tested with the "
-                         "hypergeometric distribution, the universe being the measured features.")
+                         "hypergeometric distribution, the universe being the measured features; a rank-based "
+                         "competitive test compared the marker scores of each set's members with those of the other "
+                         f"features by the Mann-Whitney U test{cite('mann1947')}.")
     if any(results.get(key) for key in ("clinical", "markers", "enrichment", "survival")):
         sentences.append(f"p-values were adjusted by the Benjamini-Hochberg procedure{cite('benjamini1995')}.")
     for name, reason in (results.get("not_run") or {}).items():
@@ -169,7 +178,11 @@ def methods_paragraph(results: dict[str, Any]) -> tuple[str, list[str]]:
     seed = _get(p, "seed")
     if seed is not None:
         sentences.append(f"All random draws derive from the seed {seed}.")
-    return " ".join(sentences), cited
+    return " ".join(s for s in sentences if s), cited
+
+
+def _words_or_none(name: Any) -> str | None:
+    return None if name is None else words(str(name))
 
 
 def _fusion_phrase(graph: dict) -> str:

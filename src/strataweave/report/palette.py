@@ -21,6 +21,9 @@ SUBTYPE_COLOURS: tuple[str, ...] = (
     "#5A4B4B",  # charcoal brown
 )
 
+#: Our accent (deep raspberry) and paper (warm sand): headings, findings and the chosen count, never a subtype.
+ACCENT = "#9B2A5C"
+PAPER = "#F4F1EA"
 NEUTRAL = "#3C3C3C"
 NEUTRAL_LIGHT = "#D9D9D9"
 NEUTRAL_SHADES: tuple[str, ...] = ("#252525", "#636363", "#969696", "#4D4D4D", "#7F7F7F", "#AFAFAF")

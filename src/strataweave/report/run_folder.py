@@ -72,6 +72,12 @@ class RunView:
     def survival_groups(self) -> list[str]:
         return survival_groups(self.results)
 
+    @property
+    def covariates(self) -> list[str]:
+        """The clinical columns the Cox model was adjusted for."""
+        evaluation = (self.results.get("parameters") or {}).get("evaluation") or {}
+        return [str(c) for c in evaluation.get("covariates") or []]
+
     def has(self, section: str) -> bool:
         """True when results.json carries this optional section (and it is not empty)."""
         return bool(self.results.get(section))

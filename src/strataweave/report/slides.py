@@ -1,153 +1,120 @@
-"""PDF slides for a lab meeting: 16:9 pages, large fonts, the caution in every page's footer."""
+"""PDF slides for a lab meeting: at most 12 16:9 pages telling the report's story, each titled by a sentence."""
 
 from __future__ import annotations
 
 import io
-import textwrap
-from typing import Callable
+import math
 
 from matplotlib.backends.backend_pdf import PdfPages
-from matplotlib.figure import Figure, SubFigure
 
 from strataweave.report import figures_biology, figures_cohort, figures_outcome, figures_selection, figures_subtypes
 from strataweave.report.figure_catalogue import marker_blocks
 from strataweave.report.figure_style import report_style
-from strataweave.report.formatting import format_p, plot_text, shorten
-from strataweave.report.palette import NEUTRAL
+from strataweave.report.findings import findings, headline
+from strataweave.report.formatting import format_value
 from strataweave.report.run_folder import RunView
-from strataweave.report.tables import Table, rows_table
+from strataweave.report.slide_pages import SlideDeck
+from strataweave.report.tables import clinical_summary_table, rows_table
+from strataweave.report.wording import column_words, listing
 
-PAGE_SIZE = (13.333, 7.5)  # inches, 16:9
-TITLE_SIZE = 28
-TEXT_SIZE = 20
-FOOTER_SIZE = 10.5
-MAX_TABLE_ROWS = 10
-BULLET_WIDTH = 90
-
-Draw = Callable[[RunView, Figure | SubFigure], None]
+MAX_SLIDES = 12
+MARKER_PANELS = 4
 
 
-class SlideDeck:
-    """Pages added one by one; each gets a title, a body and the caution footer."""
-
-    def __init__(self, run: RunView, pdf: PdfPages) -> None:
-        self.run = run
-        self.pdf = pdf
-        self.pages = 0
-
-    def page(self, title: str, subtitle: str = "") -> tuple[Figure, SubFigure]:
-        fig = Figure(figsize=PAGE_SIZE, layout="constrained")
-        head, body, foot = fig.subfigures(3, 1, height_ratios=[0.13 if not subtitle else 0.18, 0.72, 0.1])
-        head.text(0.02, 0.95, plot_text(title), fontsize=TITLE_SIZE, fontweight="bold", va="top")
-        if subtitle:
-            head.text(0.02, 0.3, plot_text(textwrap.fill(subtitle, 110)), fontsize=15, va="center", color=NEUTRAL)
-        self.pages += 1
-        head.text(0.985, 0.95, str(self.pages), fontsize=FOOTER_SIZE, ha="right", va="top", color=NEUTRAL)
-        foot.text(0.02, 0.5, textwrap.fill(self.run.results["caution"], 175), fontsize=FOOTER_SIZE, va="center",
-                  color=NEUTRAL)
-        return fig, body
-
-    def figure_page(self, title: str, draws: list[Draw], subtitle: str = "") -> None:
-        fig, body = self.page(title, subtitle)
-        panels = body.subfigures(1, len(draws)) if len(draws) > 1 else [body]
-        for draw, panel in zip(draws, panels):
-            draw(self.run, panel)
-        self.pdf.savefig(fig)
-
-    def text_page(self, title: str, lines: list[str], size: float = TEXT_SIZE) -> None:
-        fig, body = self.page(title)
-        wrapped = [textwrap.fill(line, BULLET_WIDTH, subsequent_indent="   ") for line in lines]
-        body.text(0.04, 0.95, "\n".join(plot_text(line) for line in wrapped), fontsize=size, va="top",
-                  linespacing=1.5)
-        self.pdf.savefig(fig)
-
-    def table_page(self, title: str, table: Table) -> None:
-        fig, body = self.page(title)
-        ax = body.subplots()
-        ax.axis("off")
-        rows = [[plot_text(shorten(cell, 34)) for cell in row] for row in table.rows[:MAX_TABLE_ROWS]]
-        if rows:
-            drawn = ax.table(cellText=rows, colLabels=[plot_text(h) for h in table.header], loc="upper center",
-                             cellLoc="left")
-            drawn.auto_set_font_size(False)
-            drawn.set_fontsize(15)
-            drawn.auto_set_column_width(list(range(len(table.header))))
-            drawn.scale(1.0, 2.0)
-        hidden = len(table.rows) - len(rows)
-        if hidden > 0:
-            ax.text(0.0, 0.0, f"{hidden} more rows in report.html", fontsize=14, transform=ax.transAxes)
-        self.pdf.savefig(fig)
-
-
-def _title_lines(run: RunView) -> list[str]:
-    results = run.results
-    cohort = results["cohort"]
+def _title_lines(run: RunView, answer: str) -> list[str]:
+    cohort = run.results["cohort"]
     layers = len(cohort["modalities"])
-    lines = [f"{cohort['patients']} patients, {layers} omics layer{'' if layers == 1 else 's'}, "
-             f"{results['subtype_count']} {run.group_word}s"]
+    lines = [f"{cohort['patients']} patients, {layers} omics layer{'' if layers == 1 else 's'}", answer]
     if "created" in run.manifest:
         lines.append(f"run started {run.manifest['created']}")
-    return lines
+    return lines + ["details, tables, methods and the rerun command: report.html"]
 
 
-def _summary_lines(run: RunView) -> list[str]:
-    results = run.results
-    sizes = ", ".join(f"{shorten(label, 16)}: {size}" for label, size in zip(run.labels, results["subtypes"]["sizes"]))
-    lines = [f"\u2022 {results['subtype_count']} {run.group_word}s ({sizes})"]
-    if run.has("selection"):
-        lines.append("\u2022 " + results["selection"]["reason"])
-    if run.has("survival"):
-        lines.append("\u2022 " + figures_outcome.logrank_sentence(results["survival"]))
-        if results["survival"].get("ph_warning"):
-            lines.append("\u2022 " + results["survival"]["ph_warning"])
-    if run.has("clinical"):
-        strongest = min(results["clinical"], key=lambda r: (r["p_adjusted"] is None, r["p_adjusted"] or 0))
-        lines.append(f"\u2022 strongest clinical association: {shorten(strongest['variable'], 30)} "
-                     f"(adjusted p = {format_p(strongest['p_adjusted'])})")
-    if run.has("enrichment"):
-        top = figures_biology.enrichment_rows(run)[:1]
-        if top:
-            lines.append(f"\u2022 top gene set: {shorten(top[0]['gene_set'], 40)} in {shorten(top[0]['subtype'], 16)} "
-                         f"(adjusted p = {format_p(top[0]['p_adjusted'])})")
-    lines.append("\u2022 details, tables, methods and the rerun command: report.html")
-    return lines
+def _cohort_title(run: RunView) -> str:
+    layers = len(run.results["cohort"]["modalities"])
+    return f"{run.results['cohort']['patients']} patients were profiled on {layers} omics layer{'s' * (layers != 1)}"
+
+
+def _consensus_title(run: RunView) -> str:
+    selection, k = run.results["selection"], run.results["subtype_count"]
+    pac = selection["criteria"].get("pac")
+    if not pac or k not in selection["counts"] or pac[selection["counts"].index(k)] is None:
+        return f"Resamples group the patients consistently into {k} subtypes"
+    share = pac[selection["counts"].index(k)]
+    return f"At {k} subtypes, {100 * share:.1f}% of patient pairs are grouped ambiguously across resamples"
+
+
+def _sizes_title(run: RunView) -> str:
+    sizes = run.results["subtypes"]["sizes"]
+    text = f"The {run.group_word}s hold {min(sizes)} to {max(sizes)} patients each"
+    if not run.groups_given:
+        core = int(run.arrays["core"].sum())
+        text += f"; {core} of {sum(sizes)} patients are core"
+    return text
+
+
+def _cox_title(run: RunView) -> tuple[str, str]:
+    """The group term with the largest hazard ratio away from 1, in words, and the model's note."""
+    survival = run.results["survival"]
+    terms = [r for r in survival["cox"] if r["term"].startswith("group ") and r.get("hazard_ratio")]
+    adjusted = listing([column_words(c) for c in run.covariates]) if run.covariates else ""
+    note = (f"Cox model adjusted for {adjusted}. " if adjusted else "Cox model. ") + (survival.get("ph_warning") or "")
+    if not terms:
+        return "Hazard ratios of the Cox model", note
+    strongest = max(terms, key=lambda r: abs(math.log(r["hazard_ratio"])))
+    group, reference = strongest["term"].removeprefix("group ").split(" vs ", 1)
+    return (f"{group} has {format_value(strongest['hazard_ratio'])} times the hazard of {reference}", note)
+
+
+def _clinical_page(deck: SlideDeck, run: RunView, title: str) -> None:
+    if run.has("clinical_summary"):
+        deck.table_page(title, clinical_summary_table(run.results["clinical_summary"]),
+                        "n (%) within the group or median [IQR]; test and adjusted p on each variable's first row")
+    else:
+        deck.table_page(title, rows_table(run.results["clinical"],
+                                          ["variable", "test", "effect_size", "effect_size_name", "p_adjusted"]))
 
 
 def render_slides(run: RunView) -> bytes:
-    """The slide deck as PDF bytes."""
+    """The slide deck as PDF bytes: title, answer, cohort, count, subtypes, outcome, clinical, biology."""
     results = run.results
+    found = findings(run)
     buffer = io.BytesIO()
     with report_style(), PdfPages(buffer, metadata={"Title": run.title, "Creator": "strataweave",
                                                     "CreationDate": None}) as pdf:
         deck = SlideDeck(run, pdf)
-        deck.text_page(run.title, _title_lines(run), size=24)
+        answer = headline(found, "count", "")
+        deck.lines_page(run.title, _title_lines(run, answer), size=20)
+        deck.findings_page(f"In short: {answer[:1].lower()}{answer[1:]}", found, run.not_run_sentences())
         if run.has_modalities:
-            deck.figure_page("Cohort", [figures_cohort.draw_presence, figures_cohort.draw_filters])
+            deck.figure_page(_cohort_title(run), [figures_cohort.draw_presence, figures_cohort.draw_filters])
         if run.has("selection"):
             selection = results["selection"]
-            subtitle = f"Recommended: {selection['recommended']}. {selection['reason']}"
-            deck.figure_page("How many subtypes", [figures_selection.draw_criteria], subtitle)
-            deck.figure_page("How many subtypes: consensus", [figures_selection.draw_consensus])
+            deck.figure_page(answer, [figures_selection.draw_criteria],
+                             f"Recommended: {selection['recommended']}. {selection['reason']}")
+            deck.figure_page(_consensus_title(run), [figures_selection.draw_consensus])
             if selection.get("flow"):
-                deck.figure_page("How many subtypes: splits", [figures_selection.draw_split_flow])
-        subtype_draws: list[Draw] = [figures_subtypes.draw_sizes]
+                deck.figure_page("Subtypes split, and patients move, as the count grows",
+                                 [figures_selection.draw_split_flow])
+        subtype_draws = [figures_subtypes.draw_sizes]
         if "embedding" in run.arrays:
             subtype_draws.insert(0, figures_subtypes.draw_embedding)
-        deck.figure_page(f"The {run.group_word}s", subtype_draws)
+        deck.figure_page(_sizes_title(run), subtype_draws)
         if run.has("survival"):
             survival = results["survival"]
-            deck.figure_page("Survival", [figures_outcome.draw_kaplan_meier], survival.get("not_tested") or "")
+            deck.figure_page(headline(found, "survival", "Survival by subtype"), [figures_outcome.draw_kaplan_meier],
+                             survival.get("not_tested") or "")
             if survival["cox"]:
-                deck.figure_page("Survival: Cox model", [figures_outcome.draw_forest], survival.get("ph_warning") or "")
+                title, note = _cox_title(run)
+                deck.figure_page(title, [figures_outcome.draw_forest], note)
         if run.has("clinical"):
-            deck.table_page("Clinical associations", rows_table(
-                results["clinical"], ["variable", "test", "effect_size", "effect_size_name", "p_adjusted"]))
-        for index, block in marker_blocks(run):
-            deck.figure_page(f"Markers: {shorten(block['modality'], 40)}",
-                             [lambda r, c, i=index: figures_biology.draw_marker_heatmap(r, c, i)])
+            _clinical_page(deck, run, headline(found, "clinical", "Clinical variables by subtype"))
+        blocks = marker_blocks(run)[:MARKER_PANELS]
+        if blocks:
+            hidden = len(marker_blocks(run)) - len(blocks)
+            deck.figure_page(headline(found, "markers", "Markers per subtype"),
+                             [lambda r, c, i=index: figures_biology.draw_marker_heatmap(r, c, i) for index, _ in blocks],
+                             f"{hidden} more modalities in report.html" if hidden else "")
         if run.has("enrichment") and figures_biology.enrichment_rows(run):
-            deck.figure_page("Enrichment", [figures_biology.draw_enrichment])
-        if run.not_run:
-            deck.text_page("Analyses not run", [f"\u2022 {line}" for line in run.not_run_sentences()])
-        deck.text_page("Summary", _summary_lines(run))
+            deck.figure_page(headline(found, "enrichment", "Gene sets of the markers"), [figures_biology.draw_enrichment])
     return buffer.getvalue()

@@ -32,6 +32,7 @@ def _assignments(grouping: ReportedGrouping) -> pd.DataFrame:
     table = pd.DataFrame({"patient_id": grouping.patients, "subtype": grouping.labels.to_numpy()})
     if grouping.scores is not None:
         table["confidence"] = grouping.confidence
+        table["core"] = grouping.core
         for column in grouping.scores.columns:
             table[column] = grouping.scores[column].to_numpy()
     return table
@@ -45,7 +46,8 @@ def _survival_table(tables: dict[str, pd.DataFrame]) -> pd.DataFrame:
 
 
 def write_tables(folder: Path, stage_results: dict, grouping: ReportedGrouping) -> None:
-    """assignments, rank_selection, survival, clinical, markers/<modality>, enrichment (.tsv), each when it ran."""
+    """assignments, rank_selection, survival, clinical (+ clinical_summary), markers/<modality>, enrichment
+    (+ enrichment_rank_test) (.tsv), each when it ran."""
     _table(_assignments(grouping), folder / "assignments.tsv")
     if "sweep" in stage_results:
         _table(stage_results["sweep"]["criteria"].reset_index(), folder / "rank_selection.tsv")
@@ -54,11 +56,13 @@ def write_tables(folder: Path, stage_results: dict, grouping: ReportedGrouping) 
         _table(_survival_table(evaluation["survival"]["tables"]), folder / "survival.tsv")
     if "clinical" in evaluation:
         _table(evaluation["clinical"]["tables"]["association"], folder / "clinical.tsv")
+        _table(evaluation["clinical"]["tables"]["by_group"], folder / "clinical_summary.tsv")
     for modality, frame in evaluation.get("markers", {}).get("tables", {}).items():
         _table(frame.rename(columns={"group": "subtype"}), folder / "markers" / f"{modality}.tsv")
     if "enrichment" in evaluation:
-        table = evaluation["enrichment"]["tables"]["over_representation"]
-        _table(table.rename(columns={"group": "subtype", "set": "gene_set"}), folder / "enrichment.tsv")
+        for name, path in (("over_representation", "enrichment.tsv"), ("rank_test", "enrichment_rank_test.tsv")):
+            table = evaluation["enrichment"]["tables"][name]
+            _table(table.rename(columns={"group": "subtype", "set": "gene_set"}), folder / path)
 
 
 def reported_grouping(stage_results: dict) -> ReportedGrouping:

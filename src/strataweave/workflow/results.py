@@ -102,6 +102,8 @@ def build_results(
         results["survival"] = _survival(evaluation["survival"], flow.cohort.time_unit)
     if "clinical" in evaluation:
         results["clinical"] = _clinical(evaluation["clinical"])
+        summary = evaluation["clinical"]["summary"]
+        results["clinical_summary"] = {"groups": summary["groups"], "rows": summary["by_group"]}
     if "markers" in evaluation:
         results["markers"] = _markers(evaluation["markers"])
     if "enrichment" in evaluation:

@@ -24,8 +24,9 @@ RUN_FORMAT = "strataweave run folder"
 MANIFEST = "manifest.json"
 LOCK = ".lock"
 OUTPUTS = (
-    "results.json", "assignments.tsv", "rank_selection.tsv", "survival.tsv", "clinical.tsv", "enrichment.tsv",
-    "report.html", "slides.pdf", "stages/figure_data.npz", "markers", "model", "figures",
+    "results.json", "assignments.tsv", "rank_selection.tsv", "survival.tsv", "clinical.tsv", "clinical_summary.tsv",
+    "enrichment.tsv", "enrichment_rank_test.tsv", "report.html", "slides.pdf", "stages/figure_data.npz", "markers",
+    "model", "figures",
 )
 
 
