@@ -1,7 +1,8 @@
 """The `strataweave` command: parses arguments, calls `workflow`, maps errors to exit codes.
 
-Exit codes: 0 done; 2 bad input (one line naming the problem, no traceback); 1 a fault of
-the program; 130 interrupted (run the same command again to resume).
+Exit codes: 0 done; 2 bad input or a bad path (one line naming it, no traceback); 3 a fault
+of the machine (disk full, read-only, out of memory; nothing lost); 1 a fault of the program;
+130 interrupted (run the same command again to resume). See `workflow.faults`.
 """
 
 from __future__ import annotations
@@ -14,7 +15,6 @@ import warnings
 from pathlib import Path
 
 from strataweave import __version__
-from strataweave.errors import InputError
 
 EXAMPLES = {
     "run": "strataweave run workflows/synthetic_cohort.toml --out runs/demo --jobs 2",
@@ -153,17 +153,20 @@ def main(argv: list[str] | None = None) -> int:
         return int(stop.code or 0)
     try:
         return _dispatch(args, argv)
-    except InputError as problem:
-        text = " ".join(str(problem).split())
-        print(f"strataweave {args.verb}: error: {text}", file=sys.stderr)
-        return 2
     except BrokenPipeError:  # the reader of the output stopped early (e.g. `| head`): not a fault
         os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
         return 0
     except KeyboardInterrupt:
         print(f"strataweave {args.verb}: interrupted; run the same command again to resume", file=sys.stderr)
         return 130
-    except Exception as fault:  # a fault of the program, not of the input
+    except Exception as fault:
+        from strataweave.workflow.faults import known_fault
+
+        known = known_fault(fault)
+        if known is not None:  # bad input, a bad path or a fault of the machine
+            code, text = known
+            print(f"strataweave {args.verb}: {'error' if code == 2 else 'stopped'}: {text}", file=sys.stderr)
+            return code
         if args.verbose:
             traceback.print_exc()
         print(
@@ -172,7 +175,6 @@ def main(argv: list[str] | None = None) -> int:
             file=sys.stderr,
         )
         return 1
-
 
 if __name__ == "__main__":
     sys.exit(main())

@@ -35,8 +35,10 @@ def atomic_write_bytes(path: str | os.PathLike, data: bytes) -> None:
             handle.write(data)
         os.chmod(tmp, 0o666 & ~_current_umask())  # mkstemp makes 0600; give the usual mode
         os.replace(tmp, path)
-    except BaseException:
+    except BaseException as error:
         Path(tmp).unlink(missing_ok=True)
+        if isinstance(error, OSError) and error.filename is None:  # a failed write names no file: name ours
+            raise OSError(error.errno, error.strerror, str(path)) from error
         raise
 
 

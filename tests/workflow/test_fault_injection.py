@@ -1,4 +1,5 @@
-"""Faults injected on purpose: damaged cache and model files, a sweep killed midway.
+"""Faults injected on purpose: damaged cache and model files, a sweep killed midway, a full
+disk or file-size limit, a read-only file system, memory exhausted, a loop of links.
 
 Each test breaks one thing the way a crash, a careless user or a flaky machine would and
 checks what the program promises: the exit code, one line naming the file and the reason,
@@ -8,7 +9,9 @@ protein, four resamples, no report) so the module stays fast.
 
 from __future__ import annotations
 
+import errno
 import os
+import resource
 import shutil
 import signal
 import subprocess
@@ -128,3 +131,62 @@ def test_a_damaged_kept_resample_is_run_again_with_a_notice(tmp_path):
     kept = checkpoint.finished(fit_resample, [(0, 7), (1, 8)])
     assert list(kept) == [0] and np.array_equal(kept[0].labels, fit.labels) and kept[0].unconverged == 2
     assert "resample-1-8.npz: checksum differs" in notices[0] and notices[0].endswith("running that resample again")
+
+
+def _small_file_limit() -> None:
+    """In the child: files may not grow past 64 KiB, and passing it is an error (EFBIG), not a signal."""
+    signal.signal(signal.SIGXFSZ, signal.SIG_IGN)
+    resource.setrlimit(resource.RLIMIT_FSIZE, (64 * 1024, 64 * 1024))
+
+
+def test_a_file_size_limit_exits_3_saying_nothing_was_lost_and_the_rerun_resumes(finished, tmp_path, capsys):
+    flow = finished.parent / "flow.toml"
+    out = tmp_path / "run"
+    command = [sys.executable, "-m", "strataweave.cli", "run", str(flow), "--out", str(out), "--quiet"]
+    stopped = subprocess.run(command, capture_output=True, text=True, preexec_fn=_small_file_limit,
+                             env={**os.environ, "PYTHONDONTWRITEBYTECODE": "1"}, timeout=300)
+    assert stopped.returncode == 3, stopped.stderr
+    line = stopped.stderr.strip()
+    assert len(line.splitlines()) == 1 and "a file reached the file-size limit at " in line
+    assert "nothing was lost" in line and not out.exists()
+    assert not [path for path in (tmp_path / ".run.running").rglob("*.tmp")]  # no half-written file left
+    assert run(flow, out) == 0
+    assert same_tables(out, finished)
+
+
+def _raise(error: BaseException):
+    def fail(*args, **kwargs):
+        raise error
+
+    return fail
+
+
+@pytest.mark.parametrize(
+    ("error", "code", "said"),
+    [
+        (OSError(errno.ENOSPC, "No space left on device"), 3, "stopped: the disk is full"),
+        (OSError(errno.EROFS, "Read-only file system", "/mnt/runs/x"), 3, "the file system is read-only at /mnt/runs/x"),
+        (MemoryError(), 3, "stopped: out of memory"),
+        (ZeroDivisionError("division by zero"), 1, "internal error: ZeroDivisionError"),
+    ],
+)
+def test_faults_of_the_machine_exit_3_and_keep_the_earlier_run(copy_of, capsys, monkeypatch, error, code, said):
+    monkeypatch.setattr("strataweave.workflow.stages.run_sweep", _raise(error))
+    (copy_of / "stages").joinpath("keep").mkdir()  # no cached sweep to read: the sweep must run
+    for entry in (copy_of / "stages").glob("sweep-*"):
+        entry.rename(copy_of / "stages" / "keep" / entry.name)
+    before = {path: path.read_bytes() for path in copy_of.rglob("*") if path.is_file()}
+    assert main(["run", str(copy_of.parent / "flow.toml"), "--out", str(copy_of), "--quiet", "--overwrite"]) == code
+    err = capsys.readouterr().err.strip()
+    assert len(err.splitlines()) == 1 and said in err, err
+    assert ("nothing was lost" in err) == (code == 3)
+    assert {path: path.read_bytes() for path in copy_of.rglob("*") if path.is_file()} == before
+
+
+def test_a_loop_of_symbolic_links_is_a_bad_path_exit_2(finished, tmp_path, capsys):
+    (tmp_path / "a").symlink_to(tmp_path / "b")
+    (tmp_path / "b").symlink_to(tmp_path / "a")
+    assert run(finished.parent / "flow.toml", tmp_path / "a" / "run") == 2
+    assert main(["check", str(tmp_path / "a" / "flow.toml")]) == 2
+    lines = capsys.readouterr().err.strip().splitlines()
+    assert len(lines) == 2 and all("a loop of symbolic links" in line and str(tmp_path / "a") in line for line in lines)
