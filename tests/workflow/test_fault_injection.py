@@ -1,5 +1,6 @@
 """Faults injected on purpose: damaged cache and model files, a sweep killed midway, a full
-disk or file-size limit, a read-only file system, memory exhausted, a loop of links.
+disk or file-size limit, a read-only file system, memory exhausted, a loop of links, and
+inputs whose messages used to point to the wrong place.
 
 Each test breaks one thing the way a crash, a careless user or a flaky machine would and
 checks what the program promises: the exit code, one line naming the file and the reason,
@@ -17,9 +18,11 @@ import signal
 import subprocess
 import sys
 import time
+import warnings
 from pathlib import Path
 
 import numpy as np
+import pandas as pd
 import pytest
 
 from strataweave.cli import main
@@ -190,3 +193,98 @@ def test_a_loop_of_symbolic_links_is_a_bad_path_exit_2(finished, tmp_path, capsy
     assert main(["check", str(tmp_path / "a" / "flow.toml")]) == 2
     lines = capsys.readouterr().err.strip().splitlines()
     assert len(lines) == 2 and all("a loop of symbolic links" in line and str(tmp_path / "a") in line for line in lines)
+
+
+def _check(flow: Path, capsys) -> tuple[int, str]:
+    code = main(["check", str(flow)])
+    return code, capsys.readouterr().err.strip()
+
+
+def _edit_line(path: Path, number: int, edit) -> None:
+    lines = path.read_text(encoding="utf-8").split("\n")
+    lines[number - 1] = edit(lines[number - 1])
+    path.write_text("\n".join(lines), encoding="utf-8")
+
+
+def test_an_unterminated_quote_is_named_at_the_line_it_opens(copy_of, capsys):
+    _edit_line(copy_of.parent / "clinical.tsv", 5, lambda line: line.replace("\t", '\t"', 1))
+    code, err = _check(copy_of.parent / "flow.toml", capsys)
+    assert code == 2 and "clinical.tsv: line 5: found a quote that is never closed" in err, err
+
+
+def test_a_line_separator_inside_a_clinical_value_stays_in_its_cell(copy_of, capsys):
+    centre = 4  # treatment_centre, a text column
+    _edit_line(copy_of.parent / "clinical.tsv", 4,
+               lambda line: "\t".join(f + "\u2028x" if i == centre else f for i, f in enumerate(line.split("\t"))))
+    code, err = _check(copy_of.parent / "flow.toml", capsys)
+    assert code == 0, err
+
+
+def test_counts_near_the_float_limit_name_the_patient_without_library_warnings(copy_of, capsys):
+    rna = copy_of.parent / "rna.tsv"
+    for number in (2, 3):  # two features of 1e308: every patient's total passes the largest float
+        _edit_line(rna, number, lambda line: "\t".join([line.split("\t")[0]] + ["1e308"] * line.count("\t")))
+    patient = rna.read_text().split("\n")[0].split("\t")[1]
+    code, err = _check(copy_of.parent / "flow.toml", capsys)
+    assert code == 2 and len(err.splitlines()) == 1, err
+    assert f"rna.tsv (modality 'rna'): patient '{patient}': found counts that add up past the largest number" in err
+
+
+def test_a_modality_with_one_patient_says_so(copy_of, capsys):
+    protein = copy_of.parent / "protein.tsv"
+    header, *rows = protein.read_text().strip().split("\n")
+    complete = next(row for row in rows if all(row.split("\t")))  # one patient with every protein measured
+    protein.write_text(f"{header}\n{complete}\n")
+    code, err = _check(copy_of.parent / "flow.toml", capsys)
+    assert code == 2 and "protein.tsv (modality 'protein'): patients: found 1; expected at least 2 patients" in err, err
+
+
+def test_a_gene_set_file_naming_no_measured_feature_is_refused_before_the_sweep(copy_of, capsys):
+    flow = copy_of.parent / "flow.toml"
+    (copy_of.parent / "sets.gmt").write_text("SET_A\tna\tNOT_MEASURED_1\tNOT_MEASURED_2\n")
+    flow.write_text(flow.read_text().replace("[evaluation]", '[evaluation]\ngene_sets = "sets.gmt"'))
+    code, err = _check(flow, capsys)
+    assert code == 2 and f"{copy_of.parent / 'sets.gmt'} (for modality 'rna'): gene sets: no member" in err, err
+    assert run(flow, copy_of.parent / "with_sets") == 2
+    assert "NOT_MEASURED_1" in capsys.readouterr().err
+    assert not list(copy_of.parent.glob("*with_sets*"))
+
+
+def test_evaluate_lists_the_patients_it_leaves_out(copy_of, capsys):
+    patients = [line.split("\t")[0] for line in (copy_of.parent / "clinical.tsv").read_text().split("\n")[1:61]]
+    groups = copy_of.parent / "groups.tsv"
+    groups.write_text("patient_id\tgroup\n" + "".join(f"{p}\t{'AB'[i % 2]}\n" for i, p in enumerate(patients))
+                      + "NOBODY-1\tA\n")
+    out = copy_of.parent / "evaluated"
+    assert main(["evaluate", str(copy_of.parent / "flow.toml"), "--groups", str(groups), "--out", str(out)]) == 0
+    assert "31 patients left out of the evaluation (30 without a group, 1 not analysis patients)" in capsys.readouterr().err
+    left_out = pd.read_csv(out / "left_out_patients.tsv", sep="\t", comment="#")
+    assert len(left_out) == 31 and "NOBODY-1" in set(left_out["patient_id"])
+    assert not set(left_out["patient_id"]) & set(patients)
+
+
+def test_messages_show_names_not_numpy_reprs(copy_of, capsys):
+    assert main(["assign", str(copy_of), "--modality", f"rna={copy_of.parent / 'protein.tsv'}"]) == 2
+    err = capsys.readouterr().err
+    assert "expected features such as '" in err and "np.str_" not in err, err
+
+
+def test_library_warnings_go_to_warnings_log_and_one_line(copy_of, capsys, monkeypatch):
+    from strataweave.workflow import stages
+
+    sweep = stages.run_sweep
+
+    def warning_sweep(*args, **kwargs):
+        for _ in range(3):
+            warnings.warn("invalid value encountered in divide", RuntimeWarning)
+        return sweep(*args, **kwargs)
+
+    monkeypatch.setattr(stages, "run_sweep", warning_sweep)
+    for entry in (copy_of / "stages").glob("sweep-*"):
+        entry.unlink()
+    assert main(["run", str(copy_of.parent / "flow.toml"), "--out", str(copy_of), "--overwrite"]) == 0
+    err = capsys.readouterr().err
+    assert "RuntimeWarning:" not in err and err.strip().splitlines()[-1].endswith(
+        "; 3 library warnings (3 RuntimeWarning) written to warnings.log, not shown")
+    log = (copy_of / "warnings.log").read_text()
+    assert "3\tRuntimeWarning\tinvalid value encountered in divide\t" in log

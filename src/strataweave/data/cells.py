@@ -92,7 +92,7 @@ def _separator(source: str) -> str | None:
 
 
 def _table_text(source: str, text: str, separator: str | None) -> TableText:
-    lines = text.splitlines()
+    lines = text.replace("\r\n", "\n").replace("\r", "\n").split("\n")  # not splitlines: U+2028 is text
     skipped = 0
     while skipped < len(lines) and lines[skipped].startswith("#"):
         skipped += 1
@@ -108,11 +108,17 @@ def _table_text(source: str, text: str, separator: str | None) -> TableText:
 def split_cells(text: TableText) -> CellTable:
     """Split every line into fields (CSV quoting rules); each row must match the header's width."""
     reader = csv.reader(io.StringIO("\n".join(text.lines)), delimiter=text.separator, strict=True)
+    rows, row_start = [], 1
     try:
-        rows = list(reader)
-    except csv.Error:
-        where = f"line {text.first_line - 2 + reader.line_num}"
-        raise input_error(text.source, where, "malformed quoting", "fields quoted in CSV style") from None
+        for row in reader:
+            rows.append(row)
+            row_start = reader.line_num + 1
+    except csv.Error as error:
+        if "end of data" in str(error):  # a quote left open runs to the end: name the line it opened on
+            where, found = row_start, "a quote that is never closed"
+        else:
+            where, found = reader.line_num, "malformed quoting"
+        raise input_error(text.source, f"line {text.first_line - 2 + where}", found, "fields quoted in CSV style") from None
     _require_full_rows(text.source, rows, header_line=text.first_line - 1)
     cells = np.empty((len(rows), len(rows[0])), dtype=object)
     cells[:] = rows

@@ -51,6 +51,7 @@ def prepare_modality(
     used = raw if patients is None else raw.loc[raw.index.astype(str).str.strip().isin(patients)]
     if used.empty:
         raise input_error(label, "patients", "no patient shared with the clinical table", "shared patient IDs")
+    check_patient_count(len(used), 2, label)  # one patient has no variance: say so, not "no feature left"
     preprocessor = Preprocessor(kind, **options).fit(used, source=label)
     return Modality(name, kind, preprocessor.transform(raw, source=label), source, preprocessor, raw)
 

@@ -89,6 +89,17 @@ def check_range(values: np.ndarray, positions: TablePositions, kind: str | None 
             raise positions.error(positions.cell(i, j), shown(values[i, j]), f"{words} (kind '{kind}')")
 
 
+
+def _check_totals(values: np.ndarray, patients: pd.Index, source: str) -> None:
+    """Refuse a patient (row) whose counts add up past the largest float: its library size would be infinite."""
+    with np.errstate(over="ignore"):
+        totals = np.nansum(values, axis=1)
+    overflowing = np.flatnonzero(np.isinf(totals))
+    if overflowing.size:
+        found = f"counts that add up past the largest number a float holds ({np.finfo(np.float64).max:.3g})"
+        raise input_error(source, f"patient {shown(patients[overflowing[0]])}", found, "read counts of a sequencing library")
+
+
 def frame_values(frame: pd.DataFrame, positions: TablePositions) -> np.ndarray:
     """The cells of an in-memory table as float64, naming the first cell that is not a number."""
     try:
@@ -111,6 +122,8 @@ def checked_frame(frame: pd.DataFrame, source: str, kind: str | None = None, all
         check_range(values, positions, kind)
     else:
         check_values(values, positions, kind)
+    if kind == "counts":
+        _check_totals(values, patients, source)
     return pd.DataFrame(values, index=pd.Index(patients, name=frame.index.name), columns=features)
 
 

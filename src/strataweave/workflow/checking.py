@@ -9,6 +9,7 @@ import pandas as pd
 from strataweave.data.cohort import Cohort
 from strataweave.data.qc import presence_patterns, qc_summary
 from strataweave.workflow.config import load_workflow
+from strataweave.workflow.evaluating import check_gene_sets
 from strataweave.workflow.loading import check_columns, load_inputs
 from strataweave.workflow.preparing import build_cohort
 
@@ -46,6 +47,7 @@ def check_inputs(path: str | Path) -> str:
     ]
     if flow.modalities:
         cohort = build_cohort(flow, loaded)
+        check_gene_sets(flow, cohort.normalised_views())
         lines += [
             f"patients in the analysis (clinical and at least one modality): {len(cohort.patients)}",
             "", _qc_table(cohort).to_string(), "", presence_patterns(cohort).to_string(index=False),

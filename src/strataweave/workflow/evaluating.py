@@ -11,7 +11,8 @@ from __future__ import annotations
 import pandas as pd
 
 from strataweave.evaluate.clinical import associate_clinical
-from strataweave.evaluate.enrichment import enrich_markers
+from strataweave.errors import InputError
+from strataweave.evaluate.enrichment import enrich_markers, set_membership
 from strataweave.evaluate.gene_sets import read_gene_set_lines, read_gene_set_table
 from strataweave.evaluate.markers import markers_by_modality, untestable_modality
 from strataweave.evaluate.survival import evaluate_survival, untestable_outcome
@@ -56,7 +57,7 @@ def _enrichment_not_run(flow: Workflow, markers, reasons: dict[str, str]) -> str
         return "no gene-set file in the workflow (evaluation.gene_sets is not set)"
     if not flow.modalities:
         return "no omics layers in the workflow, so no markers to test"
-    modality = _gene_set_modality(flow)
+    modality = gene_set_modality(flow)
     if markers is None or modality not in markers.tables:
         return f"the markers of {modality!r} were not run ({reasons[f'markers/{modality}']})"
     return None
@@ -141,18 +142,36 @@ def evaluate_grouping(
     return parts
 
 
-def _gene_set_modality(flow: Workflow) -> str:
+def gene_set_modality(flow: Workflow) -> str:
     """The modality whose markers enrichment tests: evaluation.gene_set_modality or the first."""
     return flow.evaluation.gene_set_modality or flow.modalities[0].name
+
+
+def workflow_gene_sets(flow: Workflow) -> dict:
+    """The gene sets of the workflow's `evaluation.gene_sets` file, read in its format."""
+    read = read_gene_set_lines if flow.evaluation.gene_set_format == "lines" else read_gene_set_table
+    return read(flow.evaluation.gene_sets)
+
+
+def check_gene_sets(flow: Workflow, views: dict[str, pd.DataFrame]) -> None:
+    """Before any heavy stage: InputError naming the workflow's gene-set file when no set in it names a
+    measured feature of the modality it is for (`views`: the normalised modalities)."""
+    modality = gene_set_modality(flow)
+    if flow.evaluation.gene_sets is None or modality not in views:
+        return
+    features = pd.Index(views[modality].columns.astype(str))
+    try:
+        set_membership(workflow_gene_sets(flow), features, 1, max(1, len(features)))
+    except InputError as problem:
+        raise InputError(f"{flow.evaluation.gene_sets} (for modality {modality!r}): {problem}") from None
 
 
 def _enrichment(flow: Workflow, markers):
     """Gene-set enrichment of the markers of one modality (evaluation.gene_set_modality or the first)."""
     settings = flow.evaluation
-    read = read_gene_set_lines if settings.gene_set_format == "lines" else read_gene_set_table
     return enrich_markers(
-        markers.tables[_gene_set_modality(flow)],
-        read(settings.gene_sets),
+        markers.tables[gene_set_modality(flow)],
+        workflow_gene_sets(flow),
         fdr=settings.marker_fdr,
         min_size=settings.min_set_size,
         max_size=settings.max_set_size,

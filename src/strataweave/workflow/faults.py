@@ -12,6 +12,7 @@ Anything else is a fault of the program (exit 1, told by the CLI).
 from __future__ import annotations
 
 import errno
+import re
 
 from joblib.externals.loky.process_executor import TerminatedWorkerError
 
@@ -31,12 +32,18 @@ MACHINE = {
 NOTHING_LOST = ("nothing was lost: inputs and finished runs are untouched and no file is half-written; "
                 "run the same command again to resume from the finished stages")
 LOOP = "Symlink loop from "  # how pathlib names a link loop before Python 3.13
+NUMPY_SCALAR = re.compile(r"np\.(?:str_|bytes_|bool_?|u?int\d*|float\d*)\(([^()]*)\)")  # repr of NumPy >= 2
+
+
+def plain_line(text: str) -> str:
+    """`text` on one line, NumPy scalars shown as their values ('G1', not np.str_('G1'))."""
+    return NUMPY_SCALAR.sub(r"\1", " ".join(text.split()))
 
 
 def known_fault(error: BaseException) -> tuple[int, str] | None:
     """(exit code, one-line message) of bad input, a bad path or a fault of the machine; None otherwise."""
     if isinstance(error, InputError):
-        return 2, " ".join(str(error).split())
+        return 2, plain_line(str(error))
     if isinstance(error, MemoryError):
         return 3, f"out of memory; {NOTHING_LOST}"
     if isinstance(error, TerminatedWorkerError):

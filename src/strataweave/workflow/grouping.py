@@ -65,3 +65,14 @@ def given_grouping(groups: pd.Series, patients: pd.Index) -> ReportedGrouping:
     n = len(labelled)
     return ReportedGrouping(labelled.index, names, codes, np.ones(n), np.ones(n, dtype=bool), None)
 
+
+
+def left_out_patients(groups: pd.Series, patients: pd.Index) -> pd.DataFrame:
+    """Patients a given grouping leaves out of the evaluation, with why: patient_id, reason."""
+    no_group = patients.difference(groups.index, sort=False)
+    not_analysed = groups.index.difference(patients, sort=False)
+    return pd.DataFrame({
+        "patient_id": [*no_group, *not_analysed],
+        "reason": ["no group in the --groups file (absent or empty)"] * len(no_group)
+        + ["not an analysis patient (no clinical row, or no modality measured)"] * len(not_analysed),
+    })

@@ -23,8 +23,10 @@ from strataweave.files import atomic_write_text
 RUN_FORMAT = "strataweave run folder"
 MANIFEST = "manifest.json"
 LOCK = ".lock"
+LEFT_OUT = "left_out_patients.tsv"  # patients a grouping brought to `evaluate` leaves out, with why
 OUTPUTS = (
-    "results.json", "assignments.tsv", "rank_selection.tsv", "survival.tsv", "clinical.tsv", "clinical_summary.tsv",
+    "results.json", "assignments.tsv", LEFT_OUT, "rank_selection.tsv", "survival.tsv", "clinical.tsv",
+    "clinical_summary.tsv",
     "enrichment.tsv", "enrichment_rank_test.tsv", "report.html", "slides.pdf", "stages/figure_data.npz", "markers",
     "model", "figures",
 )

@@ -12,19 +12,26 @@ import shutil
 import time
 from pathlib import Path
 
+import pandas as pd
+
+from strataweave.caution import CAUTION
 from strataweave.errors import InputError
-from strataweave.files import sha256_file
+from strataweave.files import sha256_file, write_table
 from strataweave.seeding import run_seeds
 from strataweave.workflow.cache import StageCache, stage_key
 from strataweave.workflow.config import Workflow
+from strataweave.workflow.evaluating import check_gene_sets
+from strataweave.workflow.grouping import analysis_patients, left_out_patients
 from strataweave.workflow.groups import read_groups
 from strataweave.workflow.loading import check_columns
 from strataweave.workflow.manifest import input_hashes, new_manifest, now_text
 from strataweave.workflow.pipeline import Pipeline
+from strataweave.workflow.preparing import normalised_views
 from strataweave.workflow.progress import Feedback
 from strataweave.workflow.run_folder import (
-    RunFolder, prepare_run_folder, publish, run_lock, seed_cache, start_staging,
+    LEFT_OUT, RunFolder, prepare_run_folder, publish, run_lock, seed_cache, start_staging,
 )
+from strataweave.workflow.warnings_log import collected_warnings, write_warnings_log
 
 class RunRecorder:
     """Keeps manifest.json current as stages start and finish, and tells the user."""
@@ -75,13 +82,15 @@ def run_workflow(
         with run_lock(folder, feedback.say):
             if created is not None:
                 seed_cache(folder, out)
-            summary = _run_stages(flow, folder, manifest, hashes, seeds, feedback, groups)
+            with collected_warnings() as caught:
+                summary = _run_stages(flow, folder, manifest, hashes, seeds, feedback, groups)
+            told = write_warnings_log(folder.path, caught)
             publish(folder, out)
     except InputError:
         if created is not None:  # bad input: leave nothing behind (a resumed run keeps its cache)
             shutil.rmtree(created, ignore_errors=True)
         raise
-    return f"{out}: {summary}"
+    return f"{out}: {summary}" + (f"; {told}" if told else "")
 
 
 def _run_stages(flow: Workflow, folder: RunFolder, manifest: dict, hashes: dict, seeds: dict,
@@ -96,6 +105,8 @@ def _run_stages(flow: Workflow, folder: RunFolder, manifest: dict, hashes: dict,
     pipeline = Pipeline(build_stages(flow, hashes, seeds, feedback, groups), cache, recorder)
 
     check_columns(flow, pipeline.result("load")["clinical"])
+    if flow.modalities:
+        check_gene_sets(flow, normalised_views(pipeline.result("prepare")))
     results = {name: pipeline.result(name) for name in pipeline.stages}
     recorder.stage_started("report", cached=False)
     start = time.perf_counter()
@@ -103,7 +114,20 @@ def _run_stages(flow: Workflow, folder: RunFolder, manifest: dict, hashes: dict,
     report_key = stage_key("report", dataclasses.asdict(flow.report), pipeline.keys)  # recorded, never cached
     recorder.stage_finished("report", report_key, time.perf_counter() - start, cached=False)
 
+    if groups is not None:
+        summary += _left_out_note(folder, groups, analysis_patients(results["load"], results.get("prepare")))
     cache.prune(pipeline.keys)
     manifest.update(status="finished", finished=now_text(), current_stage=None)
     folder.write_manifest(manifest)
     return summary
+
+
+def _left_out_note(folder: RunFolder, groups: pd.Series, patients: pd.Index) -> str:
+    """'; N patients left out ...' with their IDs and reasons written to left_out_patients.tsv; '' if none."""
+    table = left_out_patients(groups, patients)
+    if table.empty:
+        return ""
+    write_table(table, folder.path / LEFT_OUT, comment=CAUTION)
+    no_group = int(table["reason"].str.startswith("no group").sum())
+    return (f"; {len(table)} patients left out of the evaluation ({no_group} without a group, "
+            f"{len(table) - no_group} not analysis patients), listed in {LEFT_OUT}")
