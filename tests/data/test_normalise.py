@@ -5,13 +5,14 @@ import math
 import numpy as np
 import pandas as pd
 import pytest
+from pydeseq2.preprocessing import deseq2_norm
 from scipy.stats import median_abs_deviation, zscore
 from sklearn.impute import KNNImputer
 
 from strataweave.data import Preprocessor
 from strataweave.data.filters import feature_mad, top_ranked
 from strataweave.data.moments import feature_median
-from strataweave.data.normalise import log2_cpm, m_values, quantile_apply, quantile_reference
+from strataweave.data.normalise import log2_cpm, m_values, median_ratio_offsets, quantile_apply, quantile_reference
 
 
 def _frame(values, prefix="G"):
@@ -30,6 +31,22 @@ def test_log2_cpm_matches_hand_computation():
     got = log2_cpm(np.array([[1.0, 3.0], [10.0, 0.0]]), prior_count=0.5)
     expected = [[math.log2(300000), math.log2(700000)], [math.log2(10.5 / 11 * 1e6), math.log2(0.5 / 11 * 1e6)]]
     np.testing.assert_allclose(got, expected, rtol=1e-14)
+
+
+def test_median_ratio_library_size_matches_pydeseq2():
+    # Reference library: pydeseq2 (PyPI), deseq2_norm, the median-of-ratios size factors of
+    # Anders & Huber 2010. With no zero counts and a negligible prior, log2 CPM re-centred by
+    # median_ratio_offsets must equal log2 of pydeseq2's normalised counts up to one constant.
+    rng = np.random.default_rng(7)
+    counts = rng.poisson(rng.lognormal(4.0, 1.0, 60) * rng.lognormal(0.0, 0.5, (25, 1))).astype(float) + 1.0
+    counts[3, 5] *= 5000.0  # one feature holding most of one patient's reads
+    log_values = log2_cpm(counts, prior_count=1e-9)
+    recentred = log_values - median_ratio_offsets(log_values, log_values.mean(axis=0))
+    normed, _ = deseq2_norm(counts)
+    difference = recentred - np.log2(normed)
+    np.testing.assert_allclose(difference, difference[0, 0], rtol=0, atol=1e-6)
+    # The total-count library lets the dominant feature push down every other feature of patient 3.
+    assert np.ptp(log_values - np.log2(normed)) > 1.0
 
 
 def test_m_values_of_published_formula():

@@ -6,8 +6,12 @@ and stays missing.
 
 from __future__ import annotations
 
+import warnings
+
 import numpy as np
 from scipy.stats import rankdata
+
+LIBRARY_SIZES = ("median_ratio", "total")  # how log2 CPM takes each patient's library size
 
 
 def log2_cpm(counts: np.ndarray, prior_count: float) -> np.ndarray:
@@ -18,6 +22,20 @@ def log2_cpm(counts: np.ndarray, prior_count: float) -> np.ndarray:
     """
     library = np.nansum(counts, axis=1, keepdims=True)
     return np.log2((counts + prior_count) / (library + 2.0 * prior_count) * 1e6)
+
+
+def median_ratio_offsets(log_values: np.ndarray, reference: np.ndarray) -> np.ndarray:
+    """Per patient (column vector), the median over features of log_values - reference.
+
+    The size factor of the median-of-ratios method (Anders & Huber 2010, Genome Biology) on
+    the log scale, with the cohort's mean log value per feature as the reference patient:
+    subtracting it re-centres each patient on its typical feature, so a few features that
+    take most of a patient's reads no longer shift every other feature of that patient.
+    """
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)  # a patient with no observed feature
+        offsets = np.nanmedian(log_values - reference, axis=1, keepdims=True)
+    return np.nan_to_num(offsets, nan=0.0)
 
 
 def m_values(beta: np.ndarray, beta_floor: float) -> np.ndarray:

@@ -30,7 +30,10 @@ class Preprocessor:
     """Turns one raw modality table (patients x features) into the matrix the model uses.
 
     kind: counts | beta | abundance | log_expression | copy_number.
-    prior_count: added to counts for log2 CPM. beta_to_m: beta values become M-values
+    prior_count: added to counts for log2 CPM. library_size: "median_ratio" re-centres each
+    patient's log2 CPM on its median ratio to the cohort's mean per feature (Anders & Huber
+    2010), so a few features holding most of a patient's reads do not shift all others;
+    "total" keeps the plain total count. beta_to_m: beta values become M-values
     (values clipped into [beta_floor, 1 - beta_floor] first). log_offset: added to
     abundances before log2. quantile_normalise: across patients (Bolstad et al. 2003).
     max_missing_fraction, min_variance, top_features + rank_by ("variance" | "mad"):
@@ -44,6 +47,7 @@ class Preprocessor:
         kind: str,
         *,
         prior_count: float = 0.5,
+        library_size: str = "median_ratio",
         beta_to_m: bool = True,
         beta_floor: float = 1e-6,
         log_offset: float = 0.0,
@@ -59,6 +63,7 @@ class Preprocessor:
     ):
         self.kind = kind
         self.prior_count = prior_count
+        self.library_size = library_size
         self.beta_to_m = beta_to_m
         self.beta_floor = beta_floor
         self.log_offset = log_offset
@@ -172,7 +177,11 @@ class Preprocessor:
 
     def _fit_kind(self, values, features) -> Step:
         if self.kind == "counts":
-            return {"step": "kind_transform", "kind": self.kind, "method": "log2_cpm", "prior_count": self.prior_count}
+            step = {"step": "kind_transform", "kind": self.kind, "method": "log2_cpm", "prior_count": self.prior_count,
+                    "library_size": self.library_size}
+            if self.library_size == "median_ratio":
+                step["reference"] = moments.observed_moments(normalise.log2_cpm(values, self.prior_count), ddof=0)[1]
+            return step
         if self.kind == "beta" and self.beta_to_m:
             return {"step": "kind_transform", "kind": self.kind, "method": "m_values", "beta_floor": self.beta_floor}
         if self.kind == "abundance":
@@ -214,7 +223,10 @@ def _fit_shift(values, features) -> Step:
 def _apply_kind(step, values, features):
     method = step["method"]
     if method == "log2_cpm":
-        return normalise.log2_cpm(values, step["prior_count"]), features
+        log_values = normalise.log2_cpm(values, step["prior_count"])
+        if step.get("library_size", "total") == "median_ratio":  # states saved before the option: total
+            log_values = log_values - normalise.median_ratio_offsets(log_values, step["reference"])
+        return log_values, features
     if method == "m_values":
         return normalise.m_values(values, step["beta_floor"]), features
     if method == "log2":
@@ -248,7 +260,7 @@ _APPLIERS: dict[str, Applier] = {
 }
 
 _PARAMETER_NAMES = (
-    "kind", "prior_count", "beta_to_m", "beta_floor", "log_offset", "quantile_normalise",
+    "kind", "prior_count", "library_size", "beta_to_m", "beta_floor", "log_offset", "quantile_normalise",
     "max_missing_fraction", "min_variance", "top_features", "rank_by", "impute",
     "impute_neighbours", "scale", "non_negative",
 )
@@ -266,6 +278,7 @@ def _restore_step(plain: dict, arrays: dict[str, np.ndarray]) -> Step:
 
 _CHOICES = {
     "kind": KINDS,
+    "library_size": normalise.LIBRARY_SIZES,
     "rank_by": filters.RANKINGS,
     "impute": imputation.IMPUTERS,
     "scale": scaling.SCALINGS,

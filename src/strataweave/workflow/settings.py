@@ -15,6 +15,7 @@ from strataweave.data import Preprocessor
 from strataweave.data.assembly import ANALYSIS_DEFAULTS
 from strataweave.data.filters import RANKINGS
 from strataweave.data.imputation import IMPUTERS
+from strataweave.data.normalise import LIBRARY_SIZES
 from strataweave.data.readers import ORIENTATIONS
 from strataweave.data.scaling import NON_NEGATIVITY, SCALINGS
 from strataweave.data.validation import KINDS
@@ -73,6 +74,10 @@ class ModalitySettings:
     orientation: str | None = key(rules.choice(*ORIENTATIONS), None, doc="omitted = detect")
     weight: float = key(rules.number(above=0), 1.0, doc="relative weight in the factorisation")
     prior_count: float = key(rules.number(above=0), PREPROCESSING["prior_count"], doc="counts: added before log2 CPM")
+    library_size: str = key(
+        rules.choice(*LIBRARY_SIZES), PREPROCESSING["library_size"],
+        doc="counts: median_ratio (robust to a few dominant features) or total",
+    )
     beta_to_m: bool = key(rules.flag(), PREPROCESSING["beta_to_m"], doc="beta: use M-values")
     quantile_normalise: bool = key(rules.flag(), PREPROCESSING["quantile_normalise"])
     max_missing_fraction: float = key(

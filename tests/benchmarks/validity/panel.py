@@ -95,10 +95,11 @@ def run_cohort(name, layers, kinds, truth, counts, extra="") -> dict:
         selected = select_count(flow, sweep)
         chosen = final_fit(prepared, sweep, selected)["assignments"]["subtype"]
         seconds = time.perf_counter() - start
-    if KEEP is not None:
-        sweep["criteria"].assign(rule=selected["count"]).to_csv(KEEP / f"{name}_criteria.tsv", sep="\t")
     patients = prepared["patients"]
     truth = truth.loc[patients]
+    if KEEP is not None:
+        ari = {k: adjusted_rand_score(truth, table["subtype"]) for k, table in sweep["assignments"].items()}
+        sweep["criteria"].assign(rule=selected["count"], ari=pd.Series(ari)).to_csv(KEEP / f"{name}_criteria.tsv", sep="\t")
     given = sweep["assignments"][true_count]["subtype"] if true_count in sweep["assignments"] else None
     views = {key: frame.reindex(patients) for key, frame in normalised_views(prepared).items()}
     row = {"cohort": name, "patients": len(patients), "views": len(layers), "true": true_count,
