@@ -105,19 +105,6 @@ def test_guard_rails_say_not_tested(leukemia):
     assert few_events["not_tested"] == "not tested: too few events (30, fewer than 40)"
 
 
-def test_proportional_hazards_warning_when_hazards_cross():
-    rng = np.random.default_rng(4)
-    n = 300
-    ids = [f"S{i}" for i in range(2 * n)]
-    early = rng.weibull(0.5, n) * 10  # falling hazard
-    late = rng.weibull(4.0, n) * 10  # rising hazard
-    clinical = pd.DataFrame({"time": np.concatenate([early, late]), "event": 1}, index=ids)
-    grouping = pd.Series(["falling"] * n + ["rising"] * n, index=ids)
-    summary = evaluate_survival(grouping, clinical, n_permutations=0).summary
-    assert summary["ph_warning"] is not None and "not be proportional" in summary["ph_warning"]
-    assert summary["ph_check"][0]["p_value"] < 0.001
-
-
 @pytest.mark.parametrize(
     ("column", "value", "message"),
     [

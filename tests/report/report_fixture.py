@@ -160,7 +160,11 @@ def make_results(modality_names=("rna", "methylation"), feature_prefix="FX", tit
                 {"term": "age_years", "hazard_ratio": 1.01, "ci_lower": 0.99, "ci_upper": 1.03, "p_value": 0.4},
             ],
             "concordance": 0.66,
-            "ph_warning": "The hazards of S2 and S1 are not proportional over time; read the RMST table.",
+            "ph_global": {"statistic": 9.2, "df": 3, "p_value": 0.027},
+            "ph_check": [{"term": "group S2 vs S1", "statistic": 6.1, "p_value": 0.014},
+                         {"term": "group S3 vs S1", "statistic": 0.4, "p_value": 0.53},
+                         {"term": "age_years", "statistic": 1.2, "p_value": 0.27}],
+            "ph_warning": "The hazards do not look proportional over time (global Schoenfeld test p = 0.027).",
             "medians": [{"group": g, "median": m} for g, m in zip(LABELS, [40.0, 18.5, None])],
             "rmst_horizon": 36.0,
             "rmst": [{"group": g, "rmst": r, "difference_vs_S1": d}

@@ -104,7 +104,7 @@ def test_numbers_come_from_results(rendered, page, tmp_path):
 
 
 def test_sections_methods_and_rerun_command(rendered, page):
-    for section in ("cohort", "graphs", "how-many", "subtypes", "outcomes", "clinical", "markers", "enrichment",
+    for section in ("at-a-glance", "cohort", "graphs", "how-many", "subtypes", "outcomes", "clinical", "markers", "enrichment",
                     "methods", "reproducibility"):
         assert f'<section id="{section}">' in page
     manifest = json.loads((rendered / "manifest.json").read_text())
@@ -112,7 +112,10 @@ def test_sections_methods_and_rerun_command(rendered, page):
     assert shlex.split(html.unescape(command)) == manifest["command"]
     assert html.escape(manifest["workflow"]["text"]) in _as_html_escape_writes(page)
     assert "graph weight 0.5" in page and "20 resamples of 0.8 of the patients" in page
-    assert "Senbabaoglu Y" in page and "Proportional hazards:" in page
+    assert "Senbabaoglu Y" in page
+    assert "Global Schoenfeld test of the Cox model: &chi;&sup2; = 9.2 (df 3),\np = 0.027." in page
+    assert "not adjusted for multiplicity" in page and "global Schoenfeld test p = 0.027" in page
+    assert '<section id="at-a-glance">' in page and page.index("at-a-glance\">") < page.index('id="cohort"')
 
 
 def test_fusion_rule_and_partition_choices_are_shown_with_their_evidence(page):

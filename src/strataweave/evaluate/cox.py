@@ -7,7 +7,8 @@ from dataclasses import dataclass
 import pandas as pd
 from lifelines import CoxPHFitter
 from lifelines.exceptions import ConvergenceError
-from lifelines.statistics import proportional_hazard_test
+
+from strataweave.evaluate.proportional_hazards import check_proportional_hazards, hazards_warning
 
 _TIME = "__time"
 _EVENT = "__event"
@@ -15,11 +16,12 @@ _EVENT = "__event"
 
 @dataclass
 class CoxFit:
-    """Hazard ratio table, concordance, proportional-hazards check and plain-words warning."""
+    """Hazard ratio table, concordance, proportional-hazards check (global and per term) and its warning."""
 
     terms: pd.DataFrame
     concordance: float
     ph_check: pd.DataFrame
+    ph_global: dict
     ph_warning: str | None
     n_used: int
     n_events: int
@@ -41,7 +43,7 @@ def design_matrix(labels: pd.Series, groups: list, covariates: pd.DataFrame) -> 
 
 
 def fit_cox(time: pd.Series, event: pd.Series, design: pd.DataFrame, alpha: float = 0.05) -> CoxFit:
-    """Fit lifelines' CoxPHFitter (Efron ties) and test proportional hazards on scaled Schoenfeld residuals.
+    """Fit lifelines' CoxPHFitter (Efron ties) and check proportional hazards (see proportional_hazards).
 
     Column names are replaced by neutral ones while fitting so that any term name is safe.
     Raises lifelines' ConvergenceError when the model cannot be fitted.
@@ -61,30 +63,16 @@ def fit_cox(time: pd.Series, event: pd.Series, design: pd.DataFrame, alpha: floa
             "p_value": summary["p"].to_numpy(),
         }
     )
-    check = proportional_hazard_test(model, frame, time_transform="rank").summary
-    ph_check = pd.DataFrame(
-        {"term": names, "statistic": check.loc[neutral, "test_statistic"].to_numpy(), "p_value": check.loc[neutral, "p"].to_numpy()}
-    )
+    check = check_proportional_hazards(model, frame, names)
     return CoxFit(
         terms=terms,
         concordance=float(model.concordance_index_),
-        ph_check=ph_check,
-        ph_warning=ph_warning(ph_check, alpha),
+        ph_check=check.terms,
+        ph_global=check.global_row(),
+        ph_warning=hazards_warning(check, alpha),
         n_used=len(frame),
         n_events=int(event.sum()),
     )
 
 
-def ph_warning(ph_check: pd.DataFrame, alpha: float) -> str | None:
-    """A sentence naming the terms whose hazards do not look proportional, or None."""
-    failing = ph_check[ph_check["p_value"] < alpha]
-    if failing.empty:
-        return None
-    listed = ", ".join(f"{t} (p = {p:.3g})" for t, p in zip(failing["term"], failing["p_value"]))
-    return (
-        f"The hazards may not be proportional over time for {listed}: the hazard ratio is then an average "
-        "over follow-up; read the Kaplan-Meier curves and the restricted mean survival times as well."
-    )
-
-
-__all__ = ["ConvergenceError", "CoxFit", "design_matrix", "fit_cox", "ph_warning"]
+__all__ = ["ConvergenceError", "CoxFit", "design_matrix", "fit_cox"]

@@ -189,6 +189,7 @@ def evaluate_survival(
         "cox": cox_terms,
         "concordance": cox_fit.concordance if cox_fit else None,
         "ph_check": ph_check,
+        "ph_global": cox_fit.ph_global if cox_fit else None,
         "ph_warning": cox_fit.ph_warning if cox_fit else None,
         "pairwise": pairwise,
         "stratified": stratified,

@@ -226,8 +226,23 @@ RESULTS: dict[str, Entry] = {
                 },
             ),
             "concordance": Entry("number", "concordance of the Cox model", required=False, nullable=True),
+            "ph_global": _section(
+                "global Schoenfeld test of the fitted Cox model (one df per term)",
+                {
+                    "statistic": Entry("number", "chi-square statistic"),
+                    "df": Entry("integer", "degrees of freedom (Cox terms)"),
+                    "p_value": Entry("number", "p-value"),
+                },
+                required=False,
+            ),
+            "ph_check": _rows(
+                "per-term Schoenfeld tests, unadjusted",
+                {"term": Entry("text", "term name"), "p_value": Entry("number", "p-value", nullable=True)},
+                required=False,
+            ),
             "ph_warning": Entry(
-                "text", "plain-words warning when the proportional-hazards check fails", required=False, nullable=True
+                "text", "plain-words warning and advice when the global proportional-hazards test fails", required=False,
+                nullable=True
             ),
             "medians": _rows(
                 "median survival per group",

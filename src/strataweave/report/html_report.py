@@ -13,6 +13,7 @@ from strataweave.caution import CAUTION
 from strataweave.report.figure_catalogue import DrawnFigure
 from strataweave.report.figures_outcome import logrank_sentence
 from strataweave.report.findings import findings
+from strataweave.report.formatting import format_p, format_value
 from strataweave.report.methods_text import REFERENCES, methods_paragraph
 from strataweave.report.run_folder import RunView
 from strataweave.report.tables import clinical_summary_table, criteria_table, modalities_table, rows_table
@@ -131,6 +132,11 @@ def report_context(run: RunView, figures: list[DrawnFigure]) -> dict[str, Any]:
     if survival:
         shown = {**survival, "cox": [{**row, "term": term_words(row["term"], run.covariates)}
                                      for row in survival.get("cox") or []]}
+        check = survival.get("ph_global") or {}
+        context["ph_global"] = {"statistic": format_value(check.get("statistic")), "df": check.get("df"),
+                                "p": format_p(check.get("p_value"))}
+        context["ph_terms"] = rows_table([{"term": term_words(r["term"], run.covariates), "statistic": r.get("statistic"),
+                                           "p_value": r.get("p_value")} for r in survival.get("ph_check") or []])
         context["survival_tables"] = [
             (title, rows_table(shown[key]))
             for key, title in (("cox", "Cox model"), ("medians", "Median survival"),

@@ -153,7 +153,8 @@ def methods_paragraph(results: dict[str, Any], version: str | None = None) -> tu
         sentences.append(
             f"Survival was summarised by Kaplan-Meier estimates{cite('kaplan1958')} and compared by the log-rank "
             f"test{permutations}; hazard ratios came from a Cox model{cite('cox1972')}{adjusted}, whose "
-            f"proportional-hazards assumption was checked with scaled Schoenfeld residuals{cite('grambsch1994')}"
+            "proportional-hazards assumption was checked by the global test on scaled Schoenfeld residuals"
+            f"{cite('grambsch1994')} (rank of time, one degree of freedom per term)"
             + (f"; restricted mean survival times{cite('royston2013')} were computed up to "
                f"{format_value(results['survival']['rmst_horizon'])} {results['survival'].get('time_unit', '')}"
                .rstrip() if results["survival"].get("rmst_horizon") is not None else "") + ".")

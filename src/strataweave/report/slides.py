@@ -11,7 +11,7 @@ from strataweave.report import figures_biology, figures_cohort, figures_outcome,
 from strataweave.report.figure_catalogue import marker_blocks
 from strataweave.report.figure_style import report_style
 from strataweave.report.findings import findings, headline
-from strataweave.report.formatting import format_value
+from strataweave.report.formatting import format_p, format_value
 from strataweave.report.run_folder import RunView
 from strataweave.report.slide_pages import SlideDeck
 from strataweave.report.tables import clinical_summary_table, rows_table
@@ -53,12 +53,24 @@ def _sizes_title(run: RunView) -> str:
     return text
 
 
+def _hazards_note(survival: dict) -> str:
+    """The proportional-hazards check in one short sentence (the advice is in report.html)."""
+    check = survival.get("ph_global")
+    if not check:
+        return ""
+    p_value = f"global Schoenfeld test p = {format_p(check['p_value'])}"
+    if survival.get("ph_warning"):
+        return (f"Hazards not proportional ({p_value}): each ratio is an average over follow-up; read the "
+                "restricted mean survival (report.html).")
+    return f"Hazards consistent with proportionality ({p_value})."
+
+
 def _cox_title(run: RunView) -> tuple[str, str]:
     """The group term with the largest hazard ratio away from 1, in words, and the model's note."""
     survival = run.results["survival"]
     terms = [r for r in survival["cox"] if r["term"].startswith("group ") and r.get("hazard_ratio")]
     adjusted = listing([column_words(c) for c in run.covariates]) if run.covariates else ""
-    note = (f"Cox model adjusted for {adjusted}. " if adjusted else "Cox model. ") + (survival.get("ph_warning") or "")
+    note = (f"Cox model adjusted for {adjusted}. " if adjusted else "Cox model. ") + _hazards_note(survival)
     if not terms:
         return "Hazard ratios of the Cox model", note
     strongest = max(terms, key=lambda r: abs(math.log(r["hazard_ratio"])))
