@@ -1,6 +1,6 @@
-"""Faults injected on purpose: damaged cache and model files, a sweep killed midway, a full
-disk or file-size limit, a read-only file system, memory exhausted, a loop of links, and
-inputs whose messages used to point to the wrong place.
+"""Faults injected on purpose: bad input files, two runs into one folder, damaged cache and
+model files, a sweep killed midway, a full disk or file-size limit, a read-only file system,
+memory exhausted, a loop of links, and inputs whose messages used to point to the wrong place.
 
 Each test breaks one thing the way a crash, a careless user or a flaky machine would and
 checks what the program promises: the exit code, one line naming the file and the reason,
@@ -11,6 +11,7 @@ protein, four resamples, no report) so the module stays fast.
 from __future__ import annotations
 
 import errno
+import gzip
 import os
 import resource
 import shutil
@@ -288,3 +289,48 @@ def test_library_warnings_go_to_warnings_log_and_one_line(copy_of, capsys, monke
         "; 3 library warnings (3 RuntimeWarning) written to warnings.log, not shown")
     log = (copy_of / "warnings.log").read_text()
     assert "3\tRuntimeWarning\tinvalid value encountered in divide\t" in log
+
+
+def _gzip_cut(path: Path) -> None:
+    data = gzip.compress(path.read_bytes())
+    path.write_bytes(data[: len(data) // 2])
+
+
+BAD_RNA = {
+    "empty": lambda path: path.write_text(""),
+    "header only": lambda path: path.write_text(path.read_text().split("\n")[0] + "\n"),
+    "a patient twice": lambda path: path.write_text(
+        "\n".join(line + "\t" + line.split("\t")[1] for line in path.read_text().strip().split("\n")) + "\n"),
+    "a word among the counts": lambda path: _edit_line(path, 3, lambda line: line.replace("\t", "\tmany", 1)),
+    "a negative count": lambda path: _edit_line(path, 3, lambda line: line.replace("\t", "\t-4", 1)),
+    "a cut gzip stream": _gzip_cut,
+}
+
+
+@pytest.mark.parametrize("damage", list(BAD_RNA), ids=list(BAD_RNA))
+def test_bad_input_exits_2_in_one_line_and_leaves_no_folder(copy_of, capsys, damage):
+    BAD_RNA[damage](copy_of.parent / "rna.tsv")
+    before = sorted(path.name for path in copy_of.parent.iterdir())
+    assert run(copy_of.parent / "flow.toml", copy_of.parent / "new_run") == 2
+    err = capsys.readouterr().err.strip()
+    assert len(err.splitlines()) == 1 and "rna.tsv" in err, err
+    assert sorted(path.name for path in copy_of.parent.iterdir()) == before
+
+
+def test_a_second_run_into_a_busy_folder_exits_2_and_a_dead_holder_is_taken_over(copy_of, capsys):
+    flow = copy_of.parent / "flow.toml"
+    flow.write_text(flow.read_text().replace("resamples = 4", "resamples = 16"))
+    out = copy_of.parent / "busy"
+    command = [sys.executable, "-m", "strataweave.cli", "run", str(flow), "--out", str(out), "--quiet"]
+    staging = copy_of.parent / ".busy.running"
+    first = subprocess.Popen(command, stderr=subprocess.DEVNULL, start_new_session=True)
+    try:
+        while first.poll() is None and not list(staging.glob("stages/sweep-*.work/resample-*.json")):
+            time.sleep(0.01)
+        assert run(flow, out) == 2
+        assert f"locked by PID {first.pid} started " in capsys.readouterr().err
+    finally:
+        os.killpg(first.pid, signal.SIGKILL)
+        first.wait(timeout=60)
+    assert main(["run", str(flow), "--out", str(out)]) == 0
+    assert f"taking over the lock of PID {first.pid} " in capsys.readouterr().err
