@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 from matplotlib.colors import to_rgb
 
-from strataweave.report.palette import SUBTYPE_COLOURS, subtype_colour, subtype_colours
+from strataweave.report.palette import SEQUENTIAL, SUBTYPE_COLOURS, subtype_colour, subtype_colours
 
 # Machado, Oliveira & Fernandes (2009), IEEE TVCG 15(6):1291-1298, simulation matrices for
 # severity 1.0 in linear RGB (recalled from memory; each row sums to 1, checked below).
@@ -51,3 +51,12 @@ def test_subtype_colour_is_fixed_by_code():
     assert subtype_colours(3) == [subtype_colour(0), subtype_colour(1), subtype_colour(2)]
     assert subtype_colour(len(SUBTYPE_COLOURS)) == subtype_colour(0)
     assert len(set(SUBTYPE_COLOURS)) == len(SUBTYPE_COLOURS)
+
+
+@pytest.mark.parametrize("vision", sorted(DEFICIENCY))
+def test_sequential_map_darkens_steadily_for_every_reader(vision):
+    """0..1 values (consensus, evidence) read by lightness alone: CIELAB L* falls all the way along the map."""
+    colours = np.array([SEQUENTIAL(x)[:3] for x in np.linspace(0, 1, 64)])
+    lightness = _lab(np.clip(_linear(colours) @ np.array(DEFICIENCY[vision]).T, 0, 1))[:, 0]
+    assert np.all(np.diff(lightness) < 0)
+    assert lightness[0] - lightness[-1] > 80

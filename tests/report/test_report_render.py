@@ -37,7 +37,7 @@ def test_every_figure_written_as_png_and_svg(rendered):
     pngs = sorted(p.stem for p in (rendered / "figures").glob("*.png"))
     svgs = sorted(p.stem for p in (rendered / "figures").glob("*.svg"))
     assert pngs == svgs
-    assert {"cohort_presence", "cohort_filters", "graph_agreement", "selection_criteria", "selection_consensus",
+    assert {"cohort_presence", "cohort_filters", "graph_agreement", "selection_evidence", "selection_consensus",
             "selection_split_flow", "subtype_sizes", "subtype_embedding", "subtype_confidence", "subtype_baselines",
             "survival_kaplan_meier", "survival_cox_forest", "markers_1", "markers_2", "enrichment_dots"} == set(pngs)
     for name in pngs:

@@ -6,13 +6,14 @@ from __future__ import annotations
 import shutil
 import subprocess
 
+import numpy as np
 import pytest
 from matplotlib.backends.backend_agg import FigureCanvasAgg, RendererAgg
 from report_fixture import make_results, write_run_folder
 
 from strataweave.report import render_run
 from strataweave.report.figure_style import new_figure, report_style
-from strataweave.report.figures_selection import draw_criteria
+from strataweave.report.figures_evidence import draw_count_evidence, goodness
 from strataweave.report.findings import clinical_finding, findings, survival_finding
 from strataweave.report.run_folder import load_run
 from strataweave.report.slide_pages import SlideDeck
@@ -67,18 +68,28 @@ def test_no_text_runs_off_a_page(slide_pages):
                     and box.y1 <= page.y1 + 1), f"slide {number}: {text.get_text()[:50]!r} runs off the page"
 
 
-def test_the_eigengap_panel_and_every_criterion_have_count_labels(tmp_path):
+def test_the_evidence_figure_labels_every_criterion_and_count_and_frames_the_count_used(tmp_path):
     results, arrays = make_results()
-    results["selection"]["criteria"].update(stability=[0.5, 0.9, 0.6], modularity=[0.3, 0.4, 0.35],
-                                            reconstruction_error=[0.8, 0.7, 0.65])
+    results["selection"]["criteria"].update(stability=[0.5, 0.9, 0.6], modularity=[0.3, 0.4, 0.35])
     fig = new_figure((12, 7))
     with report_style():
-        draw_criteria(load_run(write_run_folder(tmp_path / "run", results, arrays)), fig)
+        draw_count_evidence(load_run(write_run_folder(tmp_path / "run", results, arrays)), fig)
     FigureCanvasAgg(fig).draw()
-    shown = [ax for ax in fig.axes if ax.get_visible()]
-    assert len(shown) == len(results["selection"]["criteria"])
-    for ax in shown:
-        assert [t.get_text() for t in ax.get_xticklabels() if t.get_visible()] == ["2", "3", "4"], ax.get_title()
+    (ax,) = fig.axes
+    rows = [t.get_text() for t in ax.get_yticklabels()]
+    assert rows[0] == "PAC\n(lower is better)" and rows[3] == "eigengap\n(higher is better)"
+    assert len(rows) == len(results["selection"]["criteria"])
+    assert [t.get_text() for t in ax.get_xticklabels()] == ["2", "3\nrecommended", "4"]
+    cells = {t.get_text() for t in ax.texts}
+    assert {"0.05", "0.99", "0.45", "0.4"} <= cells  # every value is written in its cell
+    # 8 patients in the smallest subtype at count 4 is below min_size 10: that column is hatched
+    assert [p.get_hatch() for p in ax.patches if p.get_hatch()] == ["//"]
+
+
+def test_goodness_runs_from_the_worst_to_the_best_count_in_the_criterion_direction():
+    assert goodness([0.2, 0.05, 0.3], higher_is_better=False).tolist() == pytest.approx([0.4, 1.0, 0.0])
+    assert goodness([0.1, 0.4, None], higher_is_better=True)[:2].tolist() == pytest.approx([0.0, 1.0])
+    assert np.isnan(goodness([25, 8, 3], higher_is_better=None)).all()
 
 
 def test_a_tie_for_the_strongest_clinical_association_is_said_as_a_tie(tmp_path):

@@ -7,7 +7,8 @@ from functools import partial
 from pathlib import Path
 from typing import Callable
 
-from strataweave.report import figures_biology, figures_cohort, figures_outcome, figures_selection, figures_subtypes
+from strataweave.report import figures_biology, figures_cohort, figures_evidence, figures_outcome
+from strataweave.report import figures_selection, figures_subtypes
 from strataweave.report.figure_style import FIGURE_SIZE, new_figure, report_style, save_figure
 from strataweave.report.run_folder import RunView
 
@@ -51,18 +52,19 @@ def plan_figures(run: RunView) -> list[FigurePlan]:
                                 "Mean fraction of shared neighbours between the graphs of two modalities.",
                                 figures_cohort.draw_agreement, (7.5, 6.0)))
     if run.has("selection"):
-        rows, _ = figures_selection.grid_shape(len(run.results["selection"]["counts"]))
-        criteria_rows, _ = figures_selection.grid_shape(len(run.results["selection"]["criteria"]))
         plans += [
-            FigurePlan("selection_criteria", "selection", "Each criterion against the subtype count.",
-                       figures_selection.draw_criteria, (12.0, 1.0 + 3.2 * criteria_rows)),
+            FigurePlan("selection_evidence", "selection",
+                       "The evidence for each subtype count: every criterion at every count, the count used framed.",
+                       figures_evidence.draw_count_evidence,
+                       (11.0, 1.8 + 0.75 * len(run.results["selection"]["criteria"]))),
             FigurePlan("selection_consensus", "selection",
-                       "Consensus matrices of the candidate counts, patients ordered by subtype at each count.",
-                       figures_selection.draw_consensus, (12.0, 1.2 + 3.0 * rows)),
+                       "Consensus of the resamples: the matrix at the count used, and how decisively each count "
+                       "groups the pairs of patients.", figures_selection.draw_consensus, (12.0, 6.5)),
         ]
         if run.results["selection"].get("flow"):
             plans.append(FigurePlan("selection_split_flow", "selection",
-                                    "How patients move between subtypes from one count to the next.",
+                                    "How patients move between subtypes from one count to the next; the numbers are patients per "
+                                    "subtype and per band.",
                                     figures_selection.draw_split_flow, (11.0, 6.0)))
     sizes_caption = ("Patients per group." if run.groups_given
                      else "Patients per subtype; the solid part are core patients.")

@@ -1,4 +1,4 @@
-"""How-many-subtypes figures: criteria against the count, consensus matrices, splits from k to k+1.
+"""How-many-subtypes figures: the consensus of the resamples, and splits from count k to k+1.
 
 Only the final subtypes get subtype colours; the subtypes of other counts are drawn in
 alternating greys so no colour is ever shared by two different groups of patients.
@@ -8,29 +8,18 @@ from __future__ import annotations
 
 import numpy as np
 from matplotlib.cm import ScalarMappable
-from matplotlib.colors import to_rgba
 from matplotlib.figure import Figure, SubFigure
 from matplotlib.patches import PathPatch, Rectangle
 from matplotlib.path import Path as CurvePath
 
-from strataweave.report.formatting import plot_text
+from strataweave.report.formatting import format_value, plot_text
 from strataweave.report.palette import NEUTRAL, NEUTRAL_SHADES, SEQUENTIAL, subtype_colour
 from strataweave.report.run_folder import RunView
-from strataweave.report.wording import words
 
 Canvas = Figure | SubFigure
 
-CRITERION_UNITS = {
-    "pac": "PAC (fraction of ambiguous pairs)",
-    "cophenetic": "cophenetic correlation",
-    "silhouette": "mean silhouette (-1 to 1)",
-    "eigengap": "eigengap of the fused graph",
-    "reconstruction_error": "reconstruction error (relative)",
-    "smallest_size": "smallest subtype (patients)",
-    "smallest_subtype": "smallest subtype (patients)",
-    "stability": "stability (mean ARI)",
-    "modularity": "modularity on the fused graph",
-}
+BAND_LABEL_SHARE = 0.04  # bands carrying at least this share of the patients are numbered
+DECISIVE_COLOURS = ("#E8CFA6", "#9B2A5C", "#3B0F2A")  # kept apart, ambiguous, kept together
 
 
 def group_colour(run: RunView, count: int, code: int) -> str:
@@ -40,68 +29,76 @@ def group_colour(run: RunView, count: int, code: int) -> str:
     return NEUTRAL_SHADES[1] if code % 2 else NEUTRAL_SHADES[2]
 
 
-def grid_shape(n: int, max_columns: int = 4) -> tuple[int, int]:
-    columns = min(n, max_columns)
-    return -(-n // columns), columns
+def _pair_shares(matrix: np.ndarray, window: tuple[float, float]) -> tuple[float, float, float]:
+    """Shares of patient pairs (upper triangle, pairs drawn together at least once) below, inside and above
+    the ambiguity window."""
+    values = matrix[np.triu_indices_from(matrix, k=1)]
+    values = values[~np.isnan(values)]
+    if values.size == 0:
+        return 0.0, 0.0, 0.0
+    apart, together = np.mean(values < window[0]), np.mean(values > window[1])
+    return float(apart), float(1.0 - apart - together), float(together)
 
 
-def draw_criteria(run: RunView, fig: Canvas) -> None:
-    """One small panel per criterion against the count, the chosen count marked by a dashed line."""
-    selection = run.results["selection"]
-    counts = selection["counts"]
-    directions = selection.get("higher_is_better", {})
-    criteria = list(selection["criteria"].items())
-    rows, columns = grid_shape(len(criteria))
-    axes = np.atleast_1d(fig.subplots(rows, columns, sharex=True, squeeze=False)).ravel()
-    for ax, (name, values) in zip(axes, criteria):
-        y = np.array([np.nan if v is None else v for v in values], dtype=float)
-        ax.plot(counts, y, color=NEUTRAL, marker="o", linewidth=2, markersize=8)
-        ax.axvline(run.results["subtype_count"], color=NEUTRAL, linestyle="--", linewidth=1.2)
-        hint = {True: " \u2191 better", False: " \u2193 better"}.get(directions.get(name), "")
-        ax.set_title(plot_text(words(name)) + hint, fontsize=13)
-        ax.set_ylabel(plot_text(CRITERION_UNITS.get(name, words(name))), fontsize=11)
-        ax.set_xticks(counts)
-        ax.tick_params(labelbottom=True)
-    for ax in axes[len(criteria):]:
-        ax.set_visible(False)
-    for ax in axes[-columns:]:
-        ax.set_xlabel("subtype count")
-    chosen = "recommended" if not selection.get("overridden") else "chosen by the user"
-    fig.suptitle(f"Criteria against the subtype count (dashed: {run.results['subtype_count']}, {chosen})")
+def _window(run: RunView) -> tuple[float, float]:
+    window = ((run.results.get("parameters") or {}).get("subtypes") or {}).get("pac_window") or [0.1, 0.9]
+    return float(window[0]), float(window[1])
 
 
-def _consensus_image(run: RunView, count: int) -> np.ndarray:
-    """Consensus matrix as RGBA with subtype strips on the top and left edges."""
+def _draw_chosen_matrix(run: RunView, ax) -> None:
+    """The consensus matrix at the count used, each subtype's block named on the diagonal."""
+    count = run.results["subtype_count"]
     matrix = run.arrays[f"consensus_k{count}"].astype(float)
     codes = run.arrays[f"consensus_k{count}_codes"]
-    size = matrix.shape[0]
-    pad = max(2, size // 25)
-    gap = max(1, size // 100)
-    strip = np.array([to_rgba(group_colour(run, count, code)) for code in codes])
-    image = np.ones((size + pad + gap, size + pad + gap, 4))
-    image[pad + gap:, pad + gap:] = SEQUENTIAL(np.clip(matrix, 0, 1))
-    image[:pad, pad + gap:] = strip[None, :, :]
-    image[pad + gap:, :pad] = strip[:, None, :]
-    return image
+    ax.imshow(np.clip(matrix, 0, 1), cmap=SEQUENTIAL, vmin=0, vmax=1, interpolation="nearest")
+    for edge in np.flatnonzero(np.diff(codes)) + 0.5:
+        ax.axvline(edge, color="white", linewidth=2)
+        ax.axhline(edge, color="white", linewidth=2)
+    for code in np.unique(codes):
+        middle = np.flatnonzero(codes == code).mean()
+        ax.text(middle, middle, plot_text(run.labels[code]) if code < len(run.labels) else str(code + 1),
+                ha="center", va="center", fontsize=13, fontweight="bold", color="white",
+                bbox={"boxstyle": "round,pad=0.25", "facecolor": subtype_colour(code), "edgecolor": "none"})
+    ax.set_xticks([])
+    ax.set_yticks([])
+    ax.spines[:].set_visible(False)
+    ax.set_title(f"{count} subtypes: how often two patients fell together", fontsize=13, loc="left")
+
+
+def _draw_decisiveness(run: RunView, ax) -> None:
+    """Per count, the shares of patient pairs the resamples keep apart, leave ambiguous or keep together."""
+    selection = run.results["selection"]
+    counts = list(selection["counts"])
+    window = _window(run)
+    shares = np.array([_pair_shares(run.arrays[f"consensus_k{k}"].astype(float), window) for k in counts])
+    labels = (f"kept apart (< {window[0]:g})", f"ambiguous ({window[0]:g}-{window[1]:g})",
+              f"kept together (> {window[1]:g})")
+    left = np.zeros(len(counts))
+    for part, (label, colour) in enumerate(zip(labels, DECISIVE_COLOURS)):
+        ax.barh(range(len(counts)), shares[:, part], left=left, color=colour, label=label, height=0.7)
+        left += shares[:, part]
+    pac = selection["criteria"].get("pac") or [None] * len(counts)
+    for row, value in enumerate(pac):
+        if value is not None:
+            ax.text(1.02, row, f"PAC {format_value(value)}", va="center", fontsize=11, color=NEUTRAL,
+                    transform=ax.get_yaxis_transform())
+    chosen = run.results["subtype_count"]
+    ax.set_yticks(range(len(counts)), [f"{k} (used)" if k == chosen else str(k) for k in counts])
+    ax.invert_yaxis()
+    ax.set_xlim(0, 1)
+    ax.set_xlabel("share of patient pairs")
+    ax.set_ylabel("subtype count")
+    ax.legend(loc="upper center", bbox_to_anchor=(0.5, -0.18), ncols=3, frameon=False, fontsize=10)
+    ax.set_title("How decisively the resamples group each pair", fontsize=13, loc="left")
 
 
 def draw_consensus(run: RunView, fig: Canvas) -> None:
-    """Consensus matrix of each count tried, patients ordered by subtype at that count."""
-    counts = run.results["selection"]["counts"]
-    rows, columns = grid_shape(len(counts))
-    axes = np.atleast_1d(fig.subplots(rows, columns, squeeze=False)).ravel()
-    for ax, count in zip(axes, counts):
-        ax.imshow(_consensus_image(run, count), interpolation="nearest")
-        marker = " (used)" if count == run.results["subtype_count"] else ""
-        ax.set_title(f"{count} subtypes{marker}", fontsize=13, fontweight="bold" if marker else "normal")
-        ax.set_xticks([])
-        ax.set_yticks([])
-        ax.spines[:].set_visible(False)
-    for ax in axes[len(counts):]:
-        ax.set_visible(False)
-    colourbar = fig.colorbar(ScalarMappable(cmap=SEQUENTIAL), ax=axes[: len(counts)].tolist(), shrink=0.8)
-    colourbar.set_label("consensus (0-1)")
-    fig.suptitle("Consensus matrices: how often two patients fell in one subtype (ordered by subtype)")
+    """The consensus matrix at the count used beside how decisive the pairs are at every count."""
+    matrix_ax, bars_ax = fig.subplots(1, 2, width_ratios=[1, 1.25])
+    _draw_chosen_matrix(run, matrix_ax)
+    _draw_decisiveness(run, bars_ax)
+    colourbar = fig.colorbar(ScalarMappable(cmap=SEQUENTIAL), ax=matrix_ax, location="bottom", shrink=0.7, pad=0.03)
+    colourbar.set_label("consensus: share of resamples together")
 
 
 def _node_sizes(flow: list[dict], counts: list[int]) -> dict[int, np.ndarray]:
@@ -153,8 +150,10 @@ def draw_split_flow(run: RunView, fig: Canvas) -> None:
         for code, size in enumerate(sizes[count]):
             tops[(count, code)] = y
             ax.add_patch(Rectangle((x - width / 2, y), width, size, color=group_colour(run, count, code), linewidth=0))
-            if count == run.results["subtype_count"] and code < len(run.labels):
-                ax.text(x + width / 2 + 0.02, y + size / 2, plot_text(run.labels[code]), va="center", fontsize=11)
+            final = count == run.results["subtype_count"] and code < len(run.labels)
+            name = f"{plot_text(run.labels[code])} " if final else ""
+            ax.text(x + width / 2 + 0.02, y + size / 2, f"{name}{int(size)}", va="center", fontsize=11 if final else 9,
+                    fontweight="bold" if final else "normal", color=NEUTRAL)
             y += size + gap
     out_used = dict.fromkeys(tops, 0.0)
     in_used = dict.fromkeys(tops, 0.0)
@@ -171,6 +170,10 @@ def draw_split_flow(run: RunView, fig: Canvas) -> None:
             patch = PathPatch(_band(x + width / 2, (y0, y0 + row["patients"]), x + 1 - width / 2,
                                     (y1, y1 + row["patients"])), facecolor=colour, alpha=0.45, linewidth=0)
             ax.add_patch(patch)
+            if row["patients"] >= BAND_LABEL_SHARE * total:
+                ax.text(x + 0.5, (y0 + y1 + row["patients"]) / 2, str(row["patients"]), ha="center", va="center",
+                        fontsize=9, color=NEUTRAL, bbox={"boxstyle": "round,pad=0.15", "facecolor": "white",
+                                                         "edgecolor": "none", "alpha": 0.8})
     ax.set_xlim(-0.5, len(counts) - 0.5)
     ax.set_ylim(total + gap * max(counts), -gap)
     ax.set_xticks(range(len(counts)), [str(c) for c in counts])

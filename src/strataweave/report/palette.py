@@ -31,8 +31,10 @@ MARKERS: tuple[str, ...] = ("o", "s", "^", "D", "v", "P", "X", "*")
 
 #: Diverging map for centred values (blue below, orange above), safe for red-green deficiency.
 DIVERGING = LinearSegmentedColormap.from_list("strataweave_diverging", ["#2D5A87", "#F7F7F7", "#FF780F"])
-#: Sequential map for 0..1 values (consensus, agreement): white to harbour blue.
-SEQUENTIAL = LinearSegmentedColormap.from_list("strataweave_sequential", ["#FFFFFF", "#96C3FF", "#2D5A87", "#0B1F33"])
+#: Sequential map for 0..1 values (consensus, agreement, evidence): warm paper through sand and raspberry to
+#: deep plum; lightness falls steadily, so it reads the same in grey and under colour-vision deficiency.
+SEQUENTIAL = LinearSegmentedColormap.from_list("strataweave_sequential",
+                                               ["#FBF8F2", "#E8CFA6", "#C9787F", "#9B2A5C", "#3B0F2A"])
 
 
 def subtype_colour(code: int) -> str:

@@ -7,7 +7,8 @@ import math
 
 from matplotlib.backends.backend_pdf import PdfPages
 
-from strataweave.report import figures_biology, figures_cohort, figures_outcome, figures_selection, figures_subtypes
+from strataweave.report import figures_biology, figures_cohort, figures_evidence, figures_outcome
+from strataweave.report import figures_selection, figures_subtypes
 from strataweave.report.figure_catalogue import marker_blocks
 from strataweave.report.figure_style import report_style
 from strataweave.report.findings import findings, headline
@@ -41,6 +42,8 @@ def _consensus_title(run: RunView) -> str:
     if not pac or k not in selection["counts"] or pac[selection["counts"].index(k)] is None:
         return f"Resamples group the patients consistently into {k} subtypes"
     share = pac[selection["counts"].index(k)]
+    if share < 0.0005:
+        return f"At {k} subtypes, almost no pair of patients is grouped ambiguously across resamples"
     return f"At {k} subtypes, {100 * share:.1f}% of patient pairs are grouped ambiguously across resamples"
 
 
@@ -102,7 +105,7 @@ def render_slides(run: RunView) -> bytes:
             deck.figure_page(_cohort_title(run), [figures_cohort.draw_presence, figures_cohort.draw_filters])
         if run.has("selection"):
             selection = results["selection"]
-            deck.figure_page(answer, [figures_selection.draw_criteria],
+            deck.figure_page(answer, [figures_evidence.draw_count_evidence],
                              f"Recommended: {selection['recommended']}. {selection['reason']}")
             deck.figure_page(_consensus_title(run), [figures_selection.draw_consensus])
             if selection.get("flow"):

@@ -80,12 +80,10 @@ def column_words(name: str) -> str:
 def term_words(term: str, covariates: list[str]) -> str:
     """A Cox term for people: 'group S2 vs S1' -> 'S2 vs S1', a covariate's column name in words
     ('age_years' -> 'age (years)')."""
-    if term.startswith("group "):
-        return term.removeprefix("group ")
     for name in sorted(covariates, key=len, reverse=True):
         if term == name or term.startswith(name + " "):
             return column_words(name) + term[len(name):]
-    return term
+    return term.removeprefix("group ")
 
 
 def listing(items: list[str]) -> str:
