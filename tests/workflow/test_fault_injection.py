@@ -25,6 +25,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 import pytest
+from joblib.externals.loky.process_executor import TerminatedWorkerError
 
 from strataweave.cli import main
 from strataweave.subtypes.tasks import ResampleFit, fit_resample
@@ -171,10 +172,13 @@ def _raise(error: BaseException):
         (OSError(errno.ENOSPC, "No space left on device"), 3, "stopped: the disk is full"),
         (OSError(errno.EROFS, "Read-only file system", "/mnt/runs/x"), 3, "the file system is read-only at /mnt/runs/x"),
         (MemoryError(), 3, "stopped: out of memory"),
+        (TerminatedWorkerError("worker ended"), 3, "stopped: a worker process was killed (most often: out of memory)"),
+        (FileNotFoundError(errno.ENOENT, "No such file or directory", "/gone/x.tsv"), 2,
+         "error: /gone/x.tsv: No such file or directory, expected a path to an existing file or folder"),
         (ZeroDivisionError("division by zero"), 1, "internal error: ZeroDivisionError"),
     ],
 )
-def test_faults_of_the_machine_exit_3_and_keep_the_earlier_run(copy_of, capsys, monkeypatch, error, code, said):
+def test_faults_of_the_machine_exit_3_bad_paths_2_and_both_keep_the_earlier_run(copy_of, capsys, monkeypatch, error, code, said):
     monkeypatch.setattr("strataweave.workflow.stages.run_sweep", _raise(error))
     (copy_of / "stages").joinpath("keep").mkdir()  # no cached sweep to read: the sweep must run
     for entry in (copy_of / "stages").glob("sweep-*"):
