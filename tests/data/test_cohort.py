@@ -6,7 +6,7 @@ import pytest
 
 from strataweave import InputError
 from strataweave.data import Cohort, Modality, prepare_modality, presence_patterns, qc_summary, read_clinical, read_matrix
-from strataweave.data.cohort import CASE_ONLY, NOT_IN_CLINICAL, unsplit_data
+from strataweave.data.cohort import CASE_ONLY, FAILED_LIBRARY, NOT_IN_CLINICAL, unsplit_data
 from strataweave.data.qc import unmatched_counts
 
 CLINICAL_IDS = [f"P{i:02d}" for i in range(12)]
@@ -52,6 +52,37 @@ def test_patients_outside_the_clinical_table_are_reported_not_merged():
         [("rna", CASE_ONLY, 1), ("rna", NOT_IN_CLINICAL, 1)]
     )
     assert "p09" not in counts.to_string() and "Q1" not in counts.to_string()
+
+
+def _counts_table(rng, ids, n_features=40):
+    counts = rng.poisson(50.0, size=(len(ids), n_features)).astype(float)
+    return pd.DataFrame(counts, index=pd.Index(ids, name="patient_id"), columns=[f"G{j}" for j in range(n_features)])
+
+
+def test_a_failed_library_is_set_aside_and_listed_with_its_reason():
+    # Reads on 3 of 40 features: the median ratio to any reference is zero (Anders & Huber
+    # 2010), so the profile cannot be normalised; it is listed, not modelled.
+    rng = np.random.default_rng(5)
+    raw = _counts_table(rng, CLINICAL_IDS)
+    raw.loc["P04"] = 0.0
+    raw.loc["P04", ["G1", "G2", "G3"]] = [90000.0, 10.0, 3.0]
+    rna = prepare_modality("rna", "counts", raw, source="rna.tsv", patients=pd.Index(CLINICAL_IDS))
+    cohort = Cohort(_clinical(), [rna], min_patients=3)
+    assert "P04" not in cohort.patients and len(cohort.patients) == 11
+    assert cohort.unmatched.set_index("patient_id").loc["P04", "reason"] == FAILED_LIBRARY
+    kept = prepare_modality("rna", "counts", raw.drop(index="P04"), patients=pd.Index(CLINICAL_IDS))
+    pd.testing.assert_frame_equal(rna.data, kept.data)  # the failed profile shaped nothing
+    total = prepare_modality("rna", "counts", raw, patients=pd.Index(CLINICAL_IDS), library_size="total")
+    assert "P04" in total.data.index and total.set_aside.empty
+
+
+def test_a_sparse_counts_layer_sets_no_patient_aside():
+    rng = np.random.default_rng(6)
+    raw = _counts_table(rng, CLINICAL_IDS)
+    raw.iloc[:, :25] = 0.0  # most features unexpressed in every patient: typical of sparse layers
+    raw.loc["P02"] = 0.0
+    raw.loc["P02", "G30"] = 40.0
+    assert prepare_modality("rna", "counts", raw, patients=pd.Index(CLINICAL_IDS)).set_aside.empty
 
 
 def test_unsplit_data_is_the_preparation_without_the_sign_split():

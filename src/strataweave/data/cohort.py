@@ -2,17 +2,19 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, field, replace
 
 import pandas as pd
 
+from strataweave.data.normalise import failed_libraries
 from strataweave.data.positions import TablePositions, input_error, shown
 from strataweave.data.preprocess import Preprocessor
-from strataweave.data.validation import check_identifiers, check_kind, check_patient_count
+from strataweave.data.validation import check_identifiers, check_kind, check_patient_count, checked_frame
 
 DEFAULT_MIN_PATIENTS = 10
 NOT_IN_CLINICAL = "not in the clinical table"
 CASE_ONLY = "differs only in case from a clinical ID"
+FAILED_LIBRARY = "failed library: no reads on more than half of the features"
 
 
 @dataclass(frozen=True)
@@ -21,6 +23,7 @@ class Modality:
 
     `preprocessor` is the fitted Preprocessor that made `data` from `raw` (both optional:
     data may arrive already prepared). `source` names where it came from, for messages.
+    `set_aside` holds the patients measured but left out as failed libraries (counts only).
     """
 
     name: str
@@ -29,6 +32,7 @@ class Modality:
     source: str = ""
     preprocessor: Preprocessor | None = None
     raw: pd.DataFrame | None = None
+    set_aside: pd.Index = field(default_factory=lambda: pd.Index([], dtype=object))
 
     def __post_init__(self):
         check_kind(self.kind, self.label)
@@ -46,14 +50,21 @@ def prepare_modality(
 
     When `patients` is given (usually the clinical IDs) only those rows shape the fitted
     parameters; every row is still transformed, so that the Cohort can report the others.
+    Counts normalised by the median ratio first set aside failed libraries (see
+    `normalise.failed_libraries`): they are listed in `set_aside`, not modelled.
     """
     label = f"{source} (modality {shown(name)})" if source else f"modality {shown(name)}"
+    set_aside = pd.Index([], dtype=object)
+    if kind == "counts" and options.get("library_size", "median_ratio") == "median_ratio":
+        checked = checked_frame(raw, label, kind)
+        set_aside = checked.index[failed_libraries(checked.to_numpy())]
+        raw = raw.loc[~raw.index.astype(str).str.strip().isin(set_aside)]
     used = raw if patients is None else raw.loc[raw.index.astype(str).str.strip().isin(patients)]
     if used.empty:
         raise input_error(label, "patients", "no patient shared with the clinical table", "shared patient IDs")
     check_patient_count(len(used), 2, label)  # one patient has no variance: say so, not "no feature left"
     preprocessor = Preprocessor(kind, **options).fit(used, source=label)
-    return Modality(name, kind, preprocessor.transform(raw, source=label), source, preprocessor, raw)
+    return Modality(name, kind, preprocessor.transform(raw, source=label), source, preprocessor, raw, set_aside)
 
 
 def unsplit_data(modality: Modality) -> pd.DataFrame:
@@ -164,8 +175,10 @@ def _restrict(modality: Modality, clinical_ids: pd.Index, folded: pd.Series, min
     if raw is not None:
         raw = raw.set_axis(pd.Index(raw.index.astype(str).str.strip(), name="patient_id"), axis=0)
         raw = raw.loc[raw.index.isin(restricted.index)]
+    failed = modality.set_aside[modality.set_aside.isin(clinical_ids)]
     return replace(modality, data=restricted, raw=raw), _unmatched_frame(
-        [modality.name] * others.size, others, reasons, twins.fillna("")
+        [modality.name] * (others.size + failed.size), others.append(failed),
+        list(reasons) + [FAILED_LIBRARY] * failed.size, list(twins.fillna("")) + [""] * failed.size,
     )
 
 

@@ -24,6 +24,20 @@ def log2_cpm(counts: np.ndarray, prior_count: float) -> np.ndarray:
     return np.log2((counts + prior_count) / (library + 2.0 * prior_count) * 1e6)
 
 
+def failed_libraries(counts: np.ndarray) -> np.ndarray:
+    """Patients (rows) whose median-of-ratios size factor is zero while the typical patient's is not.
+
+    A patient with no reads on more than half of the features has a median ratio of zero to
+    any reference (Anders & Huber 2010), so its profile cannot be put on the cohort's scale:
+    the reads went to a few features and the library failed. Where the typical (median)
+    patient also has reads on at most half of the features (sparse layers), no one is flagged.
+    """
+    detected = np.mean(np.nan_to_num(counts, nan=0.0) > 0, axis=1)
+    if np.median(detected) <= 0.5:
+        return np.zeros(counts.shape[0], dtype=bool)
+    return detected <= 0.5
+
+
 def median_ratio_offsets(log_values: np.ndarray, reference: np.ndarray) -> np.ndarray:
     """Per patient (column vector), the median over features of log_values - reference.
 
