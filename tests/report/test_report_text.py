@@ -34,6 +34,8 @@ def test_methods_paragraph_names_each_preprocessing_step_and_the_software_versio
     sentences = {name: re.search(rf"Preprocessing of {name}: (.*?)\.\s(?=[A-Z])", text).group(1)
                  for name in ("rna", "methylation", "protein")}
     assert "log2 counts per million (prior count 0.5)" in sentences["rna"]
+    assert "median ratio to the cohort's mean profile" in sentences["rna"] and "failed libraries" in sentences["rna"]
+    assert "anders2010" in methods_paragraph(results)[1]
     assert "imputed from the 10 nearest patients" in sentences["rna"]
     assert "M-values" in sentences["methylation"] and "imputed by the feature median" in sentences["methylation"]
     for name in ("rna", "methylation"):
@@ -46,6 +48,9 @@ def test_methods_paragraph_names_each_preprocessing_step_and_the_software_versio
     assert "scaled exponential kernel" in text and "scaled_exponential" not in text
     assert "rank-based competitive test" in text
     assert "mean consensus with its own subtype across the resamples was at least 0.8" not in text
+    modalities[0]["library_size"] = "total"
+    total_text, total_cited = methods_paragraph(results)
+    assert "of each patient's total count" in total_text and "anders2010" not in total_cited
     results["parameters"]["subtypes"]["core_threshold"] = 0.8
     assert "at least 0.8" in methods_paragraph(results)[0]
     assert "strataweave (version not recorded)" in methods_paragraph(results)[0]

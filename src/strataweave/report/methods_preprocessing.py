@@ -6,16 +6,25 @@ steps are applied; modalities with the same settings share one sentence.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from typing import Any
 
 from strataweave.report.formatting import format_value
 from strataweave.report.wording import listing
 
 
-def _transform(m: dict[str, Any]) -> str:
+Cite = Callable[..., str]  # reference keys -> the bracketed numbers of the methods text
+
+
+def _transform(m: dict[str, Any], cite: Cite) -> str:
     kind = m.get("kind")
     if kind == "counts":
-        return f"log2 counts per million (prior count {format_value(m.get('prior_count'))})"
+        cpm = f"log2 counts per million (prior count {format_value(m.get('prior_count'))})"
+        if m.get("library_size", "median_ratio") != "median_ratio":
+            return cpm + " of each patient's total count"
+        return (f"{cpm}, each patient re-centred on its median ratio to the cohort's mean profile"
+                f"{cite('anders2010')}, after profiles with no reads on more than half of the features "
+                "(failed libraries) were set aside")
     if kind == "beta":
         return "M-values (log2 ratio of the beta values)" if m.get("beta_to_m") else "beta values as given"
     if kind == "abundance":
@@ -56,18 +65,18 @@ def _scaling(m: dict[str, Any]) -> str:
     return " and ".join(p for p in parts if p)
 
 
-def modality_steps(m: dict[str, Any]) -> str:
+def modality_steps(m: dict[str, Any], cite: Cite) -> str:
     """One modality's preprocessing as a clause, steps in the order they run."""
-    steps = [f"transformed to {_transform(m)}"]
+    steps = [f"transformed to {_transform(m, cite)}"]
     if m.get("quantile_normalise"):
         steps.append("quantile normalised across patients")
     steps += [_filters(m), _imputation(m), _scaling(m)]
     return "; ".join(s for s in steps if s)
 
 
-def preprocessing_sentences(modalities: list[dict[str, Any]]) -> list[str]:
+def preprocessing_sentences(modalities: list[dict[str, Any]], cite: Cite) -> list[str]:
     """'<names>: <steps>.' for each distinct preprocessing, modalities with equal steps together."""
     by_steps: dict[str, list[str]] = {}
     for m in modalities:
-        by_steps.setdefault(modality_steps(m), []).append(str(m.get("name")))
+        by_steps.setdefault(modality_steps(m, cite), []).append(str(m.get("name")))
     return [f"Preprocessing of {listing(names)}: {steps}." for steps, names in by_steps.items()]

@@ -25,6 +25,8 @@ REFERENCES: dict[str, str] = {
     "luxburg2007": "von Luxburg U. A tutorial on spectral clustering. Stat Comput 2007;17:395-416.",
     "newman2006": "Newman MEJ. Modularity and community structure in networks. "
                   "Proc Natl Acad Sci USA 2006;103:8577-8582.",
+    "anders2010": "Anders S, Huber W. Differential expression analysis for sequence count data. "
+                  "Genome Biol 2010;11:R106.",
     "hubert1985": "Hubert L, Arabie P. Comparing partitions. J Classif 1985;2:193-218.",
     "kaplan1958": "Kaplan EL, Meier P. Nonparametric estimation from incomplete observations. "
                   "J Am Stat Assoc 1958;53:457-481.",
@@ -99,7 +101,7 @@ def methods_paragraph(results: dict[str, Any], version: str | None = None) -> tu
     software = f"strataweave {version}" if version else "strataweave (version not recorded)"
     sentences = [f"{results['cohort']['patients']} patients were analysed"
                  + (f" with {layers}: {names}" if modalities else "") + f", using {software}."]
-    sentences += preprocessing_sentences(p.get("modalities") or [])
+    sentences += preprocessing_sentences(p.get("modalities") or [], cite)
     if results.get("graph"):
         graph = results["graph"]
         kernel = _phrase(" with the {kernel} kernel", kernel=_words_or_none(_get(p, "graph.kernel")))
