@@ -208,3 +208,11 @@ def test_untested_survival_is_said_in_words(tmp_path):
             assert figure_bytes(figures[draw], "png").startswith(b"\x89PNG")
     forest_texts = [t.get_text() for ax in figures[draw_forest].axes for t in ax.texts]
     assert forest_texts == ["not estimable"]
+
+
+def test_a_passed_hazards_check_is_said_without_overclaiming(tmp_path):
+    results, arrays = make_results(n=20)
+    results["survival"].update(ph_warning=None, ph_global={"statistic": 2.1, "df": 3, "p_value": 0.55})
+    page = render_html(load_run(write_run_folder(tmp_path / "run", results, arrays)), [])
+    assert "p = 0.55. The test finds no clear departure from proportional hazards" in page
+    assert 'class="warning">The hazards do not look proportional' not in page

@@ -4,6 +4,8 @@ the HTML report escapes every one of them and shows no patient identifier."""
 from __future__ import annotations
 
 import html
+import json
+import re
 from pathlib import Path
 
 import pytest
@@ -90,3 +92,25 @@ def test_whole_run_escapes_user_strings_and_hides_patients(tmp_path):
         assert raw not in page
         assert html.escape(raw) in normalised, raw
     assert "CLB-" not in page and html.escape(PATIENT_SUFFIX) not in page
+    _check_methods_against_the_run(tmp_path / "run", page)
+
+
+def _check_methods_against_the_run(run, page):
+    """The methods paragraph names what the run's results.json and manifest say it used."""
+    results = json.loads((run / "results.json").read_text(encoding="utf-8"))
+    manifest = json.loads((run / "manifest.json").read_text(encoding="utf-8"))
+    methods = html.unescape(re.search(r'<p class="methods">(.*?)</p>', page, flags=re.S).group(1))
+    methods = " ".join(methods.split())
+    assert f"using strataweave {manifest['strataweave_version']}." in methods
+    for modality in results["parameters"]["modalities"]:
+        sentence = re.search(rf"Preprocessing of [^:]*\b{modality['name']}\b[^:]*: (.*?)\.\s(?=[A-Z])", methods)
+        assert sentence, modality["name"]
+        steps = sentence.group(1)
+        assert f"the {modality['top_features']} features of highest variance were kept" in steps
+        assert f"missing in more than {modality['max_missing_fraction']:.0%} of the patients" in steps
+        assert {"median": "imputed by the feature median", "knn": "nearest patients",
+                "none": "not imputed"}[modality["impute"]] in steps
+    graph = results["parameters"]["graph"]
+    assert f"keeping {graph['neighbours']} neighbours per patient" in methods
+    assert f"{results['parameters']['resampling']['resamples']} resamples" in methods
+    assert f"seed {results['parameters']['seed']}" in methods

@@ -65,7 +65,7 @@ def _hazards_note(survival: dict) -> str:
     if survival.get("ph_warning"):
         return (f"Hazards not proportional ({p_value}): each ratio is an average over follow-up; read the "
                 "restricted mean survival (report.html).")
-    return f"Hazards consistent with proportionality ({p_value})."
+    return f"No clear departure from proportional hazards ({p_value})."
 
 
 def _cox_title(run: RunView) -> tuple[str, str]:
