@@ -65,7 +65,7 @@ def draw_count_evidence(run: RunView, fig: Canvas) -> None:
     chosen = counts.index(run.results["subtype_count"]) if run.results["subtype_count"] in counts else None
     if chosen is not None:
         ax.add_patch(Rectangle((chosen - 0.5, -0.5), 1, len(names), facecolor="none", edgecolor=NEUTRAL,
-                               linewidth=3.5))
+                               linewidth=3.5, zorder=5))  # above the white cell borders
     who = "chosen by the user" if selection.get("overridden") else "recommended"
     ax.set_xticks(range(len(counts)), [f"{c}\n{who}" if i == chosen else str(c) for i, c in enumerate(counts)])
     ax.xaxis.tick_top()
