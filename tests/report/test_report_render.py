@@ -216,3 +216,15 @@ def test_a_passed_hazards_check_is_said_without_overclaiming(tmp_path):
     page = render_html(load_run(write_run_folder(tmp_path / "run", results, arrays)), [])
     assert "p = 0.55. The test finds no clear departure from proportional hazards" in page
     assert 'class="warning">The hazards do not look proportional' not in page
+
+
+def test_rendering_again_removes_figures_it_no_longer_draws(tmp_path):
+    results, arrays = make_results(n=20)
+    root = write_run_folder(tmp_path / "run", results, arrays)
+    (root / "figures").mkdir()
+    for name in ("selection_criteria.png", "selection_criteria.svg"):
+        (root / "figures" / name).write_bytes(b"from an earlier version")
+    (root / "figures" / "notes.txt").write_text("kept", encoding="utf-8")
+    render_run(root, formats=("html",))
+    assert not list((root / "figures").glob("selection_criteria.*"))
+    assert (root / "figures" / "selection_evidence.png").is_file() and (root / "figures" / "notes.txt").is_file()

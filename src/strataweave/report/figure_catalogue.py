@@ -98,7 +98,11 @@ def plan_figures(run: RunView) -> list[FigurePlan]:
 
 
 def draw_figures(run: RunView, progress: Callable[[int], None] | None = None) -> list[DrawnFigure]:
-    """Draw every planned figure into run_dir/figures as PNG and SVG; return them with their PNG bytes."""
+    """Draw every planned figure into run_dir/figures as PNG and SVG; return them with their PNG bytes.
+
+    Figures of an earlier rendering that this one does not draw (a figure since renamed or left out)
+    are removed, so the folder always matches the report.
+    """
     folder = Path(run.run_dir) / FIGURES_DIR
     drawn = []
     with report_style():
@@ -108,4 +112,8 @@ def draw_figures(run: RunView, progress: Callable[[int], None] | None = None) ->
             drawn.append(DrawnFigure(plan, save_figure(fig, folder, plan.name)))
             if progress is not None:
                 progress(done)
+    names = {figure.plan.name for figure in drawn}
+    for stale in [*folder.glob("*.png"), *folder.glob("*.svg")]:
+        if stale.stem not in names:
+            stale.unlink()
     return drawn
