@@ -40,7 +40,7 @@ def test_methods_paragraph_names_each_preprocessing_step_and_the_software_versio
     assert "M-values" in sentences["methylation"] and "imputed by the feature median" in sentences["methylation"]
     for name in ("rna", "methylation"):
         assert "missing in more than 20% of the patients" in sentences[name]
-        assert "the 500 features of highest variance were kept" in sentences[name]
+        assert "the 500 features of highest variance (all, where fewer) were kept" in sentences[name]
         assert "centred and scaled to unit variance and split into its positive and negative parts" in sentences[name]
     protein = sentences["protein"]
     assert "log2 abundances" in protein and "quantile normalised" in protein and "35%" in protein

@@ -106,7 +106,7 @@ def _check_methods_against_the_run(run, page):
         sentence = re.search(rf"Preprocessing of [^:]*\b{modality['name']}\b[^:]*: (.*?)\.\s(?=[A-Z])", methods)
         assert sentence, modality["name"]
         steps = sentence.group(1)
-        assert f"the {modality['top_features']} features of highest variance were kept" in steps
+        assert f"the {modality['top_features']} features of highest variance (all, where fewer) were kept" in steps
         assert f"missing in more than {modality['max_missing_fraction']:.0%} of the patients" in steps
         assert {"median": "imputed by the feature median", "knn": "nearest patients",
                 "none": "not imputed"}[modality["impute"]] in steps

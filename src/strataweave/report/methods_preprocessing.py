@@ -42,7 +42,7 @@ def _filters(m: dict[str, Any]) -> str:
     top = m.get("top_features")
     if top is not None:
         rank = "median absolute deviation" if m.get("rank_by") == "mad" else "variance"
-        text += (", then " if text else "") + f"the {format_value(top)} features of highest {rank} were kept"
+        text += (", then " if text else "") + f"the {format_value(top)} features of highest {rank} (all, where fewer) were kept"
     return text
 
 
