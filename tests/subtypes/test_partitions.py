@@ -8,6 +8,7 @@ from sklearn.datasets import make_blobs
 from sklearn.metrics import adjusted_rand_score
 
 from cohort import prepared_cohort
+from strataweave import InputError
 from strataweave.factorize import label_patients, scores_for_labels
 from strataweave.graph import modularity
 from strataweave.subtypes.partitions import (
@@ -121,3 +122,28 @@ def test_one_named_candidate_is_taken_at_every_count(cohort):
     for count in (2, 3):
         spectral = result.baseline_labels[count]["spectral"].to_numpy()
         assert np.array_equal(result.assignments[count]["subtype"].to_numpy(), spectral)
+
+
+def test_the_concatenation_reads_the_profiles_not_the_factorisation_input():
+    # Two planted groups that only the profiles show: the views given to the factorisation are
+    # noise. The k-means baseline and the concatenation partition read the profiles.
+    rng = np.random.default_rng(4)
+    truth = np.repeat([0, 1], 40)
+    profiles = rng.normal(size=(80, 12)) + 4.0 * truth[:, None]
+    views = {"layer": rng.random((80, 12))}
+    graph = sp.csr_matrix(np.corrcoef(profiles) > 0.5, dtype=float)
+    settings = SweepSettings(n_resamples=2, min_size=5, labels_from="concatenation")
+    fit = {"max_iter": 20}
+    given = sweep_subtype_counts(views, graph, [2], profiles={"layer": profiles}, settings=settings,
+                                 factorization=fit, random_state=2)
+    ignored = sweep_subtype_counts(views, graph, [2], settings=settings, factorization=fit, random_state=2)
+    for result, expected in ((given, 1.0), (ignored, None)):
+        kmeans = result.baseline_labels[2]["kmeans"].to_numpy()
+        chosen = result.assignments[2]["subtype"].to_numpy()
+        if expected is None:
+            assert adjusted_rand_score(truth, kmeans) < 0.5 and adjusted_rand_score(truth, chosen) < 0.5
+        else:
+            assert adjusted_rand_score(truth, kmeans) == expected and adjusted_rand_score(truth, chosen) == expected
+    with pytest.raises(InputError, match="profile 'layer'"):
+        sweep_subtype_counts(views, graph, [2], profiles={"layer": profiles[:70]}, settings=settings,
+                             factorization=fit, random_state=2)

@@ -79,6 +79,7 @@ class SubtypeSweep(Shown, BaseEstimator):
             raise InputError(f"cohort: found {type(cohort).__name__}; expected a strataweave Cohort")
         graph = fitted(graph, "graph_") if isinstance(graph, GraphFusion) else graph
         views = dict(zip(cohort.names, cohort.aligned_views()))
+        profiles = {name: frame.reindex(cohort.patients) for name, frame in cohort.normalised_views().items()}
         options = {name: getattr(self, name) for name in _FACTORIZATION}
         self.weights_ = self._weights(cohort)
         scaled = relative_modality_weights(list(views.values()), self.weights_)
@@ -86,7 +87,7 @@ class SubtypeSweep(Shown, BaseEstimator):
             options["modality_weights"] = scaled
         settings = SweepSettings(**{name: getattr(self, name) for name in _SWEEP})
         parallel = ParallelSettings(backend=self.backend, n_jobs=self.n_jobs, scheduler=self.scheduler)
-        self.result_ = sweep_subtype_counts(views, graph, list(self.counts), settings=settings,
+        self.result_ = sweep_subtype_counts(views, graph, list(self.counts), profiles=profiles, settings=settings,
                                             factorization=options, parallel=parallel, random_state=self.random_state)
         self.criteria_ = self.result_.criteria
         self.consensus_ = self.result_.consensus

@@ -23,7 +23,7 @@ from strataweave.subtypes.result import SweepResult, subtype_labels, subtype_nam
 from strataweave.subtypes.settings import SweepSettings
 from strataweave.subtypes.sweep import planned_tasks, sweep_subtype_counts
 from strataweave.workflow.config import Workflow
-from strataweave.workflow.preparing import aligned_views
+from strataweave.workflow.preparing import aligned_views, normalised_views
 from strataweave.workflow.progress import Feedback
 from strataweave.workflow.resample_checkpoint import ResampleCheckpoint
 
@@ -68,6 +68,7 @@ def run_sweep(
     sweep; the result as a cacheable record (see `sweep_from_record`)."""
     settings = sweep_settings(flow)
     views = dict(zip(prepared["views"], aligned_views(prepared)))
+    profiles = {name: frame.reindex(prepared["patients"]) for name, frame in normalised_views(prepared).items()}
     parallel = ParallelSettings(
         backend=flow.resampling.backend, n_jobs=flow.resampling.jobs, scheduler=flow.resampling.scheduler,
         checkpoint=None if work is None else ResampleCheckpoint(work, feedback.say),
@@ -77,6 +78,7 @@ def run_sweep(
             views,
             graphs["affinity"],
             flow.subtypes.counts,
+            profiles=profiles,
             settings=settings,
             factorization=factorization_options(flow, prepared),
             parallel=parallel,
