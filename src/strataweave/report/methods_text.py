@@ -49,7 +49,8 @@ PARTITION_WORDS = {  # candidate -> (name, how it was made)
     "joint_model": ("the joint factorisation's labels", " (k-means on the unit-length rows of the patient factor)"),
     "fused_graph": ("the spectral clustering of the {graph}", ""),
     "concatenation": ("the spectral clustering of the concatenated scaled modalities",
-                      " (a k-nearest-neighbour graph with the mean degree of the {graph})"),
+                      " (a k-nearest-neighbour graph, with the mean degree of the {graph}, of the normalised "
+                      "profiles before any sign split, reduced to at most 50 principal components)"),
 }
 
 
