@@ -4,6 +4,7 @@ import os
 import subprocess
 import sys
 import time
+import warnings
 
 import numpy as np
 import pytest
@@ -13,6 +14,11 @@ from strataweave import InputError
 from strataweave.seeding import child_seeds
 from strataweave.subtypes import parallel
 from strataweave.subtypes.parallel import ParallelSettings, run_tasks
+
+
+def warning_task(shared, seed):
+    warnings.warn(f"task {seed} warns", RuntimeWarning)
+    return seed
 
 
 def seeded_projection_labels(shared, seed):
@@ -135,3 +141,13 @@ def test_tasks_a_checkpoint_holds_are_not_run_again_and_results_keep_their_order
     for (rows, labels, _), (rows_whole, labels_whole, _) in zip(resumed, whole):
         assert np.array_equal(rows, rows_whole) and np.array_equal(labels, labels_whole)
     assert set(checkpoint.kept) == set(seeds)
+
+
+@pytest.mark.parametrize("backend", ["serial", "processes"])
+def test_warnings_raised_in_a_task_reach_the_callers_filters_whatever_process_ran_it(shared, backend):
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        results = run_tasks(warning_task, shared, [3, 4, 5], ParallelSettings(backend, n_jobs=2))
+    assert results == [3, 4, 5]
+    assert sorted(str(w.message) for w in caught if issubclass(w.category, RuntimeWarning)) == [
+        "task 3 warns", "task 4 warns", "task 5 warns"]

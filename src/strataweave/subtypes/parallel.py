@@ -16,6 +16,7 @@ compute other numbers for the same seed.
 from __future__ import annotations
 
 import ast
+import warnings
 from collections.abc import Callable, Iterator, Sequence
 from contextlib import ExitStack, contextmanager
 from dataclasses import dataclass, field
@@ -109,7 +110,8 @@ def code_fingerprint() -> str:
     return digest.hexdigest()
 
 
-def _single_threaded(function: Callable, shared: Any, params: Any, main_fingerprint: str) -> Any:
+def _single_threaded(function: Callable, shared: Any, params: Any, main_fingerprint: str) -> tuple[Any, list]:
+    """One task on one BLAS thread: its result and the warnings it raised (message, category, file, line)."""
     if code_fingerprint() != main_fingerprint:
         raise InputError(
             f"workers: found a worker running other strataweave source or numeric libraries "
@@ -117,8 +119,10 @@ def _single_threaded(function: Callable, shared: Any, params: Any, main_fingerpr
             "expected the same code everywhere (restart after editing the package, "
             "or install the same versions on the workers)"
         )
-    with threadpool_limits(limits=1):
-        return function(shared, params)
+    with threadpool_limits(limits=1), warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        result = function(shared, params)
+    return result, [(str(w.message), w.category, w.filename, w.lineno) for w in caught]
 
 
 @contextmanager
@@ -241,11 +245,17 @@ def _collect(
     progress: Callable[[int], None] | None,
     done_before: int,
 ) -> list[Any]:
-    """Results in task order: those `done` before, then each fresh one (kept as it arrives)."""
+    """Results in task order: those `done` before, then each fresh one (kept as it arrives).
+
+    A fresh task's warnings, recorded where it ran, are raised again here, so that they reach
+    the caller's warning filters whichever process the task ran in.
+    """
     collected = dict(done)
     if progress is not None and collected:
         progress(done_before + len(collected))
-    for (position, params), result in fresh:
+    for (position, params), (result, raised) in fresh:
+        for message, category, filename, lineno in raised:
+            warnings.warn_explicit(message, category, filename, lineno)
         if keep is not None:
             keep(params, result)
         collected[position] = result
