@@ -1,4 +1,4 @@
-"""Agreement between two labelings: contingency table, ARI, NMI, and the split/merge flow k -> k+1.
+"""Agreement between two labelings: contingency table, ARI, NMI (scikit-learn), and the split/merge flow k -> k+1.
 
 Works on any two groupings of the same patients (two counts, two runs, two methods, or our
 subtypes against a clinical grouping). Labels given as pandas Series are aligned on their
@@ -11,6 +11,8 @@ from dataclasses import dataclass
 
 import numpy as np
 import pandas as pd
+from sklearn.metrics import adjusted_rand_score, normalized_mutual_info_score
+from sklearn.metrics.cluster import contingency_matrix
 
 from strataweave.errors import InputError
 
@@ -45,69 +47,27 @@ def _paired_labels(a, b) -> tuple[np.ndarray, np.ndarray]:
     return a, b
 
 
+def _table(a: np.ndarray, b: np.ndarray) -> pd.DataFrame:
+    """scikit-learn's contingency matrix, labelled by the sorted labels of each side."""
+    counts = contingency_matrix(a, b)
+    return pd.DataFrame(counts, index=pd.Index(np.unique(a), name="a"), columns=pd.Index(np.unique(b), name="b"))
+
+
 def contingency_table(a, b) -> pd.DataFrame:
     """Patients counted by (label in `a`, label in `b`): rows are `a`'s labels, columns `b`'s."""
-    a, b = _paired_labels(a, b)
-    rows, row_codes = np.unique(a, return_inverse=True)
-    cols, col_codes = np.unique(b, return_inverse=True)
-    counts = np.zeros((rows.size, cols.size), dtype=np.int64)
-    np.add.at(counts, (row_codes, col_codes), 1)
-    return pd.DataFrame(counts, index=pd.Index(rows, name="a"), columns=pd.Index(cols, name="b"))
-
-
-def _pairs(x: np.ndarray) -> np.ndarray | float:
-    return x * (x - 1) / 2.0
-
-
-def ari_from_contingency(counts: np.ndarray) -> float:
-    """Adjusted Rand index (Hubert and Arabie 1985) of a contingency table of counts."""
-    counts = np.asarray(counts, dtype=np.float64)
-    n = counts.sum()
-    index = _pairs(counts).sum()
-    rows = _pairs(counts.sum(axis=1)).sum()
-    cols = _pairs(counts.sum(axis=0)).sum()
-    expected = rows * cols / _pairs(n) if n > 1 else 0.0
-    maximum = (rows + cols) / 2.0
-    if maximum == expected:  # both labelings trivial (one group each, or all singletons): identical
-        return 1.0
-    return float((index - expected) / (maximum - expected))
-
-
-def nmi_from_contingency(counts: np.ndarray) -> float:
-    """Mutual information normalised by the mean of the two entropies (natural log)."""
-    counts = np.asarray(counts, dtype=np.float64)
-    if counts.shape[0] == counts.shape[1] == 1:  # one group on both sides: a perfect match
-        return 1.0
-    n = counts.sum()
-    joint = counts[counts > 0] / n
-    p_rows = counts.sum(axis=1) / n
-    p_cols = counts.sum(axis=0) / n
-    outer = np.outer(p_rows, p_cols)[counts > 0]
-    mutual = float(np.sum(joint * np.log(joint / outer)))
-    entropy_rows = -float(np.sum(p_rows[p_rows > 0] * np.log(p_rows[p_rows > 0])))
-    entropy_cols = -float(np.sum(p_cols[p_cols > 0] * np.log(p_cols[p_cols > 0])))
-    denominator = (entropy_rows + entropy_cols) / 2.0
-    if denominator <= 0.0:
-        return 0.0
-    return float(max(mutual, 0.0) / denominator)
-
-
-def adjusted_rand(a, b) -> float:
-    """ARI between two labelings of the same patients."""
-    return ari_from_contingency(contingency_table(a, b).to_numpy())
+    return _table(*_paired_labels(a, b))
 
 
 def compare_partitions(a, b) -> PartitionComparison:
     """ARI, NMI and the contingency table between two labelings of the same patients."""
-    table = contingency_table(a, b)
-    counts = table.to_numpy()
-    if counts.sum() == 0:
+    a, b = _paired_labels(a, b)
+    if a.size == 0:
         raise InputError("labelings: found no patient labelled in both; expected at least one shared patient")
     return PartitionComparison(
-        ari=ari_from_contingency(counts),
-        nmi=nmi_from_contingency(counts),
-        contingency=table,
-        n_patients=int(counts.sum()),
+        ari=float(adjusted_rand_score(a, b)),
+        nmi=float(normalized_mutual_info_score(a, b)),
+        contingency=_table(a, b),
+        n_patients=int(a.size),
     )
 
 

@@ -5,9 +5,9 @@ from __future__ import annotations
 import numpy as np
 from scipy.cluster.hierarchy import cophenet, linkage
 from scipy.spatial.distance import squareform
+from sklearn.metrics import adjusted_rand_score
 
 from strataweave.errors import InputError
-from strataweave.subtypes.compare import adjusted_rand
 from strataweave.subtypes.consensus import NOT_DRAWN
 
 # A pair never drawn together carries no evidence either way; for the tree it sits halfway.
@@ -75,6 +75,6 @@ def resample_stability(resample_labels: np.ndarray, full_labels: np.ndarray) -> 
             "as in the full-data labels"
         )
     scores = [
-        adjusted_rand(row[row != NOT_DRAWN], full_labels[row != NOT_DRAWN]) for row in resample_labels
+        adjusted_rand_score(row[row != NOT_DRAWN], full_labels[row != NOT_DRAWN]) for row in resample_labels
     ]
     return float(np.mean(scores))
