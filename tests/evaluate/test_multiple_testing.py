@@ -45,3 +45,15 @@ def test_bh_never_below_raw_and_keeps_order(p):
     assert (adjusted >= p - 1e-15).all() and (adjusted <= 1).all()
     order = np.argsort(p, kind="mergesort")
     assert (np.diff(adjusted[order]) >= -1e-15).all()
+
+
+def test_bh_leaves_each_rows_nan_out_of_its_own_count():
+    rng = np.random.default_rng(5)
+    p = rng.uniform(size=(3, 20))
+    p[0, [2, 9]] = np.nan
+    p[2] = np.nan
+    adjusted = bh_adjust(p)
+    assert np.isnan(adjusted[0, [2, 9]]).all() and np.isnan(adjusted[2]).all()
+    kept = ~np.isnan(p[0])
+    np.testing.assert_allclose(adjusted[0, kept], multipletests(p[0, kept], method="fdr_bh")[1])  # statsmodels
+    np.testing.assert_allclose(adjusted[1], multipletests(p[1], method="fdr_bh")[1])  # statsmodels

@@ -1,27 +1,24 @@
-"""Benjamini-Hochberg false discovery rate adjustment (Benjamini & Hochberg 1995)."""
+"""Benjamini-Hochberg false discovery rate adjustment (Benjamini & Hochberg 1995) by scipy."""
 
 from __future__ import annotations
 
 import numpy as np
+from scipy.stats import false_discovery_control
 
 
 def bh_adjust(p_values) -> np.ndarray:
-    """Benjamini-Hochberg adjusted p-values; NaN entries stay NaN and do not count as tests.
+    """Benjamini-Hochberg adjusted p-values along the last axis, so a matrix is adjusted row by row.
 
-    Works along the last axis, so a matrix of p-values is adjusted row by row.
+    NaN entries (nothing tested) stay NaN and do not count as tests; scipy refuses them.
     """
     p = np.asarray(p_values, dtype=float)
     if p.ndim == 0:
         return bh_adjust(p[None])[0]
-    if p.ndim > 1:
-        return np.apply_along_axis(bh_adjust, -1, p)
+    tested = ~np.isnan(p)
+    if tested.all():
+        return false_discovery_control(p, axis=-1)
     adjusted = np.full(p.shape, np.nan)
-    tested = np.flatnonzero(~np.isnan(p))
-    if tested.size == 0:
-        return adjusted
-    order = tested[np.argsort(p[tested], kind="mergesort")]
-    m = order.size
-    scaled = p[order] * m / np.arange(1, m + 1)
-    monotone = np.minimum.accumulate(scaled[::-1])[::-1]
-    adjusted[order] = np.minimum(monotone, 1.0)
+    for row in np.ndindex(p.shape[:-1]):
+        if tested[row].any():
+            adjusted[row][tested[row]] = false_discovery_control(p[row][tested[row]])
     return adjusted
