@@ -14,7 +14,6 @@ import pandas as pd
 import scipy.sparse as sp
 
 from strataweave.errors import InputError
-from strataweave.graph.laplacian import degrees
 
 
 def graph_affinity(graph, patients: pd.Index | None):
@@ -55,7 +54,7 @@ class GraphSmoothness:
         if graph_weight < 0:
             raise InputError(f"graph_weight: found {graph_weight}; expected a value >= 0")
         self.affinity = _checked_affinity(graph, n_patients, dtype)
-        self.degree = degrees(self.affinity).astype(dtype)[:, None]
+        self.degree = np.asarray(self.affinity.sum(axis=1)).ravel().astype(dtype)[:, None]
         total = float(self.degree.sum())
         self.strength = graph_weight * n_patients / total if total > 0 else 0.0
         # built once: lambda (D + A) for the numerator, 2 lambda D for the denominator

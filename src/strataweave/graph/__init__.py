@@ -2,7 +2,6 @@
 
 from strataweave.graph.diagnostics import graph_diagnostics, modality_agreement, modularity, neighbour_purity
 from strataweave.graph.fusion import fuse_modalities
-from strataweave.graph.laplacian import laplacian
 from strataweave.graph.patient_graph import PatientGraph
 from strataweave.graph.spectral import eigengaps, spectral_embedding
 
@@ -11,7 +10,6 @@ __all__ = [
     "eigengaps",
     "fuse_modalities",
     "graph_diagnostics",
-    "laplacian",
     "modality_agreement",
     "modularity",
     "neighbour_purity",
