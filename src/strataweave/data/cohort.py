@@ -54,16 +54,17 @@ def prepare_modality(
     `normalise.failed_libraries`): they are listed in `set_aside`, not modelled.
     """
     label = f"{source} (modality {shown(name)})" if source else f"modality {shown(name)}"
+    preprocessor = Preprocessor(kind, **options)
     set_aside = pd.Index([], dtype=object)
-    if kind == "counts" and options.get("library_size", "median_ratio") == "median_ratio":
+    if kind == "counts" and preprocessor.library_size == "median_ratio":
         checked = checked_frame(raw, label, kind)
-        set_aside = checked.index[failed_libraries(checked.to_numpy())]
-        raw = raw.loc[~raw.index.astype(str).str.strip().isin(set_aside)]
+        failed = failed_libraries(checked.to_numpy())
+        set_aside, raw = checked.index[failed], checked.loc[~failed]
     used = raw if patients is None else raw.loc[raw.index.astype(str).str.strip().isin(patients)]
     if used.empty:
         raise input_error(label, "patients", "no patient shared with the clinical table", "shared patient IDs")
     check_patient_count(len(used), 2, label)  # one patient has no variance: say so, not "no feature left"
-    preprocessor = Preprocessor(kind, **options).fit(used, source=label)
+    preprocessor.fit(used, source=label)
     return Modality(name, kind, preprocessor.transform(raw, source=label), source, preprocessor, raw, set_aside)
 
 
