@@ -115,11 +115,11 @@ def build_parser() -> argparse.ArgumentParser:
     assign.add_argument("--out", type=Path, help="table to write (default: print to standard output)")
     assign.add_argument("--force", action="store_true", help="replace an existing --out file (never an input or a run's file)")
 
-    compare = verb("compare", "compare the subtypes of two runs: ARI, NMI, contingency table, flow")
+    compare = verb("compare", "compare the subtypes of two runs: ARI, NMI, contingency table, flow, a figure and an HTML page")
     compare.add_argument("run_a", type=Path, help="first run folder")
     compare.add_argument("run_b", type=Path, help="second run folder")
-    compare.add_argument("--out", type=Path, help="folder for the comparison tables (default: print only)")
-    compare.add_argument("--force", action="store_true", help="replace comparison tables already in --out")
+    compare.add_argument("--out", type=Path, help="folder for the comparison tables, figure and page (default: print only)")
+    compare.add_argument("--force", action="store_true", help="replace comparison files already in --out")
 
     report = verb("report", "render report.html, slides.pdf and figures/ again from a run folder")
     report.add_argument("run_dir", type=Path, help="a finished run folder")

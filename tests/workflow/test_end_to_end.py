@@ -232,6 +232,10 @@ def test_evaluate_a_given_grouping_without_modalities_and_compare(finished, coho
     planted = read_planted_subtypes(groups).loc[ours.index]
     # scikit-learn's ARI as the reference for the comparison
     assert comparison["ari"] == pytest.approx(adjusted_rand_score(planted, ours), abs=1e-12)
+    page = (tmp_path / "cmp" / "comparison.html").read_text(encoding="utf-8")
+    assert CAUTION in page and {"comparison.png", "comparison.svg"} <= {p.name for p in (tmp_path / "cmp").iterdir()}
+    text = page.split('src="data:')[0] + page.split('src="data:')[1].split('"', 1)[1]  # the page without its figure
+    assert not any(patient in text for patient in ours.index)
 
 
 def test_report_renders_again_from_the_run_folder(finished, tmp_path) -> None:

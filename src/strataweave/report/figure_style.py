@@ -12,6 +12,8 @@ import matplotlib
 matplotlib.use("Agg")
 
 import matplotlib.pyplot as plt  # noqa: E402
+import numpy as np  # noqa: E402
+from matplotlib.axes import Axes  # noqa: E402
 from matplotlib.axis import Axis  # noqa: E402
 from matplotlib.figure import Figure  # noqa: E402
 from matplotlib.ticker import FuncFormatter  # noqa: E402
@@ -72,3 +74,11 @@ def plain_log_ticks(axis: Axis, minor_leading_digits: str = "25") -> None:
     axis.set_minor_formatter(
         FuncFormatter(lambda value, _: f"{value:g}" if f"{value:.0e}"[0] in minor_leading_digits else "")
     )
+
+
+def cell_borders(ax: Axes, rows: int, columns: int) -> None:
+    """White lines between the cells of a table-like heatmap, so each cell reads as its own tile."""
+    ax.set_xticks(np.arange(columns + 1) - 0.5, minor=True)
+    ax.set_yticks(np.arange(rows + 1) - 0.5, minor=True)
+    ax.grid(which="minor", color="white", linewidth=2)
+    ax.tick_params(which="minor", length=0)

@@ -11,6 +11,7 @@ import numpy as np
 from matplotlib.figure import Figure, SubFigure
 from matplotlib.patches import Rectangle
 
+from strataweave.report.figure_style import cell_borders
 from strataweave.report.formatting import format_value, plot_text
 from strataweave.report.palette import NEUTRAL, NEUTRAL_LIGHT, PAPER, SEQUENTIAL
 from strataweave.report.run_folder import RunView
@@ -76,10 +77,7 @@ def draw_count_evidence(run: RunView, fig: Canvas) -> None:
                   fontsize=11)
     ax.tick_params(length=0)
     ax.spines[:].set_visible(False)
-    ax.set_xticks(np.arange(len(counts) + 1) - 0.5, minor=True)
-    ax.set_yticks(np.arange(len(names) + 1) - 0.5, minor=True)
-    ax.grid(which="minor", color="white", linewidth=2)
-    ax.tick_params(which="minor", length=0)
+    cell_borders(ax, len(names), len(counts))
     note = "shade: worst (light) to best (dark) of the counts tried; value in each cell"
     if _too_small(run, counts).any():
         note += "; hatched: a subtype below the minimum size"

@@ -9,16 +9,14 @@ from __future__ import annotations
 import numpy as np
 from matplotlib.cm import ScalarMappable
 from matplotlib.figure import Figure, SubFigure
-from matplotlib.patches import PathPatch, Rectangle
-from matplotlib.path import Path as CurvePath
 
+from strataweave.report.flow_bands import FlowBand, FlowColumn, draw_flow
 from strataweave.report.formatting import format_value, plot_text
-from strataweave.report.palette import NEUTRAL, NEUTRAL_SHADES, SEQUENTIAL, subtype_colour
+from strataweave.report.palette import NEUTRAL, NEUTRAL_SHADES, SEQUENTIAL, alternating_grey, subtype_colour
 from strataweave.report.run_folder import RunView
 
 Canvas = Figure | SubFigure
 
-BAND_LABEL_SHARE = 0.04  # bands carrying at least this share of the patients are numbered
 DECISIVE_COLOURS = ("#E8CFA6", "#9B2A5C", "#3B0F2A")  # kept apart, ambiguous, kept together
 
 
@@ -26,7 +24,7 @@ def group_colour(run: RunView, count: int, code: int) -> str:
     """Subtype colour at the final count; alternating greys at every other count."""
     if count == run.results["subtype_count"]:
         return subtype_colour(code)
-    return NEUTRAL_SHADES[1] if code % 2 else NEUTRAL_SHADES[2]
+    return alternating_grey(code)
 
 
 def _pair_shares(matrix: np.ndarray, window: tuple[float, float]) -> tuple[float, float, float]:
@@ -115,17 +113,6 @@ def _node_sizes(flow: list[dict], counts: list[int]) -> dict[int, np.ndarray]:
     return sizes
 
 
-def _band(x0: float, y0: tuple[float, float], x1: float, y1: tuple[float, float]) -> CurvePath:
-    """A smooth band from the vertical segment y0 at x0 to the segment y1 at x1."""
-    mid = (x0 + x1) / 2
-    vertices = [
-        (x0, y0[0]), (mid, y0[0]), (mid, y1[0]), (x1, y1[0]),
-        (x1, y1[1]), (mid, y1[1]), (mid, y0[1]), (x0, y0[1]), (x0, y0[0]),
-    ]
-    codes = [CurvePath.MOVETO] + [CurvePath.CURVE4] * 3 + [CurvePath.LINETO] + [CurvePath.CURVE4] * 3 + [CurvePath.CLOSEPOLY]
-    return CurvePath(vertices, codes)
-
-
 def _band_colour(run: RunView, source: tuple[int, int], target: tuple[int, int]) -> str:
     """A band takes the colour of the final subtype at either end, else a light grey."""
     for count, code in (target, source):
@@ -136,49 +123,21 @@ def _band_colour(run: RunView, source: tuple[int, int], target: tuple[int, int])
 
 def draw_split_flow(run: RunView, fig: Canvas) -> None:
     """How subtypes split and merge from each count to the next, as stacked nodes and bands."""
-    selection = run.results["selection"]
-    counts = list(selection["counts"])
-    flow = selection.get("flow") or []
+    counts = list(run.results["selection"]["counts"])
+    flow = run.results["selection"].get("flow") or []
     sizes = _node_sizes(flow, counts)
-    total = max((s.sum() for s in sizes.values()), default=1.0) or 1.0
-    gap = 0.02 * total
-    width = 0.12
+    final = run.results["subtype_count"]
+    columns = [FlowColumn(sizes[count], [f"{plot_text(run.labels[code])} {int(size)}"
+                                         if count == final and code < len(run.labels) else str(int(size))
+                                         for code, size in enumerate(sizes[count])],
+                          [group_colour(run, count, code) for code in range(count)], emphasis=count == final)
+               for count in counts]
+    position = {count: x for x, count in enumerate(counts)}
+    bands = [FlowBand(position[r["count"]], r["source"], r["target"], r["patients"],
+                      _band_colour(run, (r["count"], r["source"]), (counts[position[r["count"]] + 1], r["target"])))
+             for r in flow if r["count"] in position and position[r["count"]] + 1 < len(counts)]
     ax = fig.subplots()
-    tops: dict[tuple[int, int], float] = {}
-    for x, count in enumerate(counts):
-        y = 0.0
-        for code, size in enumerate(sizes[count]):
-            tops[(count, code)] = y
-            ax.add_patch(Rectangle((x - width / 2, y), width, size, color=group_colour(run, count, code), linewidth=0))
-            final = count == run.results["subtype_count"] and code < len(run.labels)
-            name = f"{plot_text(run.labels[code])} " if final else ""
-            ax.text(x + width / 2 + 0.02, y + size / 2, f"{name}{int(size)}", va="center", fontsize=11 if final else 9,
-                    fontweight="bold" if final else "normal", color=NEUTRAL)
-            y += size + gap
-    out_used = dict.fromkeys(tops, 0.0)
-    in_used = dict.fromkeys(tops, 0.0)
-    for x, count in enumerate(counts[:-1]):
-        for row in sorted((r for r in flow if r["count"] == count), key=lambda r: (r["source"], r["target"])):
-            source, target = (count, row["source"]), (counts[x + 1], row["target"])
-            if source not in tops or target not in tops:
-                continue
-            y0 = tops[source] + out_used[source]
-            y1 = tops[target] + in_used[target]
-            out_used[source] += row["patients"]
-            in_used[target] += row["patients"]
-            colour = _band_colour(run, source, target)
-            patch = PathPatch(_band(x + width / 2, (y0, y0 + row["patients"]), x + 1 - width / 2,
-                                    (y1, y1 + row["patients"])), facecolor=colour, alpha=0.45, linewidth=0)
-            ax.add_patch(patch)
-            if row["patients"] >= BAND_LABEL_SHARE * total:
-                ax.text(x + 0.5, (y0 + y1 + row["patients"]) / 2, str(row["patients"]), ha="center", va="center",
-                        fontsize=9, color=NEUTRAL, bbox={"boxstyle": "round,pad=0.15", "facecolor": "white",
-                                                         "edgecolor": "none", "alpha": 0.8})
-    ax.set_xlim(-0.5, len(counts) - 0.5)
-    ax.set_ylim(total + gap * max(counts), -gap)
-    ax.set_xticks(range(len(counts)), [str(c) for c in counts])
+    draw_flow(ax, columns, bands, [str(c) for c in counts])
     ax.set_xlabel("subtype count")
     ax.set_ylabel("patients (stacked)")
-    ax.spines[["left"]].set_visible(False)
-    ax.set_yticks([])
     fig.suptitle("How subtypes split from one count to the next")

@@ -25,7 +25,7 @@ CLINICAL_COLUMNS = ("variable", "test", "statistic", "df", "effect_size", "effec
                     "n_used", "n_missing")
 
 
-def _environment() -> Environment:
+def template_environment() -> Environment:
     """Autoescaping is on for every template, whatever its file name."""
     return Environment(loader=PackageLoader("strataweave.report", "templates"), autoescape=True,
                        undefined=StrictUndefined, trim_blocks=True, lstrip_blocks=True)
@@ -148,4 +148,4 @@ def report_context(run: RunView, figures: list[DrawnFigure]) -> dict[str, Any]:
 
 def render_html(run: RunView, figures: list[DrawnFigure]) -> str:
     """The report as one HTML string."""
-    return _environment().get_template(TEMPLATE).render(**report_context(run, figures))
+    return template_environment().get_template(TEMPLATE).render(**report_context(run, figures))

@@ -45,3 +45,8 @@ def subtype_colour(code: int) -> str:
 def subtype_colours(count: int) -> list[str]:
     """Colours of subtype codes 0..count-1."""
     return [subtype_colour(code) for code in range(count)]
+
+
+def alternating_grey(code: int) -> str:
+    """Grey of a group that is not one of the final subtypes: neighbours in a stack alternate two shades."""
+    return NEUTRAL_SHADES[1] if code % 2 else NEUTRAL_SHADES[2]

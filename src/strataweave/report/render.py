@@ -1,4 +1,4 @@
-"""Render a run folder: figures/ (PNG + SVG), report.html and slides.pdf, written atomically."""
+"""Render a run folder (figures/ as PNG + SVG, report.html, slides.pdf) or a comparison of two runs, written atomically."""
 
 from __future__ import annotations
 
@@ -7,7 +7,12 @@ from typing import Callable, Iterable
 
 from strataweave.errors import InputError
 from strataweave.files import atomic_write_bytes, atomic_write_text
+from strataweave.report.comparison_page import render_comparison_html
+from strataweave.report.comparison_view import ComparisonView
 from strataweave.report.figure_catalogue import draw_figures
+from strataweave.report.figure_style import new_figure, report_style, save_figure
+from strataweave.report.figures_comparison import FIGURE_SIZE as COMPARISON_SIZE
+from strataweave.report.figures_comparison import draw_comparison
 from strataweave.report.html_report import render_html
 from strataweave.report.run_folder import load_run
 from strataweave.report.slides import render_slides
@@ -15,6 +20,8 @@ from strataweave.report.slides import render_slides
 FORMATS = ("html", "pdf")
 REPORT_FILE = "report.html"
 SLIDES_FILE = "slides.pdf"
+COMPARISON_FIGURE = "comparison"
+COMPARISON_PAGE = "comparison.html"
 
 
 def render_run(run_dir: str | Path, formats: Iterable[str] = FORMATS,
@@ -44,3 +51,14 @@ def render_run(run_dir: str | Path, formats: Iterable[str] = FORMATS,
         if progress is not None:
             progress(done + 1)
     return written
+
+
+def render_comparison(out: str | Path, view: ComparisonView) -> dict[str, Path]:
+    """Write the comparison figure (PNG + SVG) and its HTML page into `out`; return {"figure"|"html": path}."""
+    out = Path(out)
+    with report_style():
+        fig = new_figure(COMPARISON_SIZE)
+        draw_comparison(view, fig)
+        png = save_figure(fig, out, COMPARISON_FIGURE)
+    atomic_write_text(out / COMPARISON_PAGE, render_comparison_html(view, png, COMPARISON_FIGURE))
+    return {"figure": out / f"{COMPARISON_FIGURE}.png", "html": out / COMPARISON_PAGE}

@@ -1,4 +1,5 @@
-"""`strataweave compare`: how the subtypes of two finished runs agree (ARI, NMI, contingency, flow)."""
+"""`strataweave compare`: how the subtypes of two finished runs agree (ARI, NMI, contingency, flow), as tables,
+a figure and an HTML page."""
 
 from __future__ import annotations
 
@@ -10,10 +11,13 @@ import pandas as pd
 from strataweave.caution import CAUTION
 from strataweave.errors import InputError
 from strataweave.files import atomic_write_text, write_table
+from strataweave.report.comparison_view import ComparisonView
+from strataweave.report.render import COMPARISON_FIGURE, COMPARISON_PAGE, render_comparison
 from strataweave.subtypes.compare import compare_partitions, split_flow
 from strataweave.workflow.run_folder import check_new_file, finished_run
 
-COMPARISON_FILES = ("comparison.json", "contingency.tsv", "flow.tsv")
+COMPARISON_FILES = ("comparison.json", "contingency.tsv", "flow.tsv", COMPARISON_PAGE, f"{COMPARISON_FIGURE}.png",
+                    f"{COMPARISON_FIGURE}.svg")
 
 
 def read_assignments(run_dir: str | Path) -> pd.Series:
@@ -29,8 +33,8 @@ def read_assignments(run_dir: str | Path) -> pd.Series:
 
 
 def compare_runs(run_a: str | Path, run_b: str | Path, out: str | Path | None = None, force: bool = False) -> str:
-    """A printable summary; with `out`, comparison.json, contingency.tsv and flow.tsv written there
-    (existing ones replaced only with `force`, never inside a finished run)."""
+    """A printable summary; with `out`, comparison.json, contingency.tsv, flow.tsv, the figure and the page
+    written there (existing ones replaced only with `force`, never inside a finished run)."""
     if out is not None:
         for name in COMPARISON_FILES:
             check_new_file(Path(out) / name, [], force)
@@ -45,6 +49,9 @@ def compare_runs(run_a: str | Path, run_b: str | Path, out: str | Path | None = 
         atomic_write_text(out / COMPARISON_FILES[0], json.dumps(summary, indent=1) + "\n")
         write_table(contingency.reset_index(), out / COMPARISON_FILES[1], comment=CAUTION)
         write_table(flow, out / COMPARISON_FILES[2], comment=CAUTION)
+        names = Path(run_a).resolve().name, Path(run_b).resolve().name
+        render_comparison(out, ComparisonView(*names, comparison.contingency, comparison.ari, comparison.nmi,
+                                              comparison.n_patients, CAUTION))
     return (
         f"ARI {comparison.ari:.3f}, NMI {comparison.nmi:.3f} over {comparison.n_patients} shared patients "
         f"(rows: {Path(run_a).name}, columns: {Path(run_b).name})\n{contingency.to_string()}"
