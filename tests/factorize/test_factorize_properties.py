@@ -8,7 +8,7 @@ import numpy as np
 import pytest
 from sklearn.exceptions import ConvergenceWarning
 
-from strataweave.factorize import JointNMF
+from strataweave.factorize import JointNMF, partition_factor, updates
 
 from conftest import knn_affinity, planted_views
 
@@ -203,9 +203,11 @@ def test_float32_stays_float32_in_every_step(cohort, monkeypatch):
     assert all(H.dtype == np.float32 for H in model.components_)
 
 
-def test_stopping_rule_measures_decreases_against_the_data_scale(cohort):
+def test_stopping_rule_measures_decreases_against_the_data_scale(cohort, monkeypatch):
     # Converged = 3 decreases in a row below tol x sum_v alpha_v ||X_v||^2 (the zero model's
     # objective, = number of views with the default weights), with or without the graph.
+    # The label rule is switched off here to see the objective rule alone.
+    monkeypatch.setattr(updates, "LABEL_PATIENCE", 10**9)
     views, _, affinity = cohort
     for weight in (0.0, 1.0, 5.0):
         model = JointNMF(3, graph_weight=weight, tol=1e-4, random_state=0).fit(views, affinity)
@@ -222,3 +224,51 @@ def test_fits_with_the_graph_converge_on_every_cohort_size():
         for n_patients in (40, 150, 600):
             views, _ = planted_views(n_patients=n_patients, noise=0.05, seed=n_patients)
             JointNMF(4, graph_weight=1.0, n_restarts=2, random_state=0).fit(views, knn_affinity(views))
+
+
+@pytest.mark.parametrize("label_rule", [True, False])
+def test_graph_regularised_fit_converges_before_max_iter(cohort, monkeypatch, label_rule):
+    # With the graph term and the default tol, the fit ends by a tolerance, not by max_iter,
+    # with the label rule and by the objective rule alone.
+    if not label_rule:
+        monkeypatch.setattr(updates, "LABEL_PATIENCE", 10**9)
+    views, _, affinity = cohort
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", ConvergenceWarning)
+        model = JointNMF(3, graph_weight=1.0, random_state=0).fit(views, affinity)
+    assert model.n_iter_ < model.max_iter
+
+
+def test_settled_labels_stop_the_fit_before_the_objective_rule(monkeypatch):
+    # Started from the planted partition, the argmax labels never change while the objective
+    # still creeps down: the label rule ends the fit early (9 against 148 iterations when
+    # written), with the labels the objective rule ends with and an objective within 1 %.
+    views, groups = planted_views(n_patients=150, noise=1.0, seed=4)
+    affinity = knn_affinity(views)
+
+    def fit():
+        return JointNMF(3, graph_weight=1.0, tol=1e-6, random_state=0).fit(
+            views, affinity, W_init=partition_factor(groups, 3))
+
+    by_labels = fit()
+    monkeypatch.setattr(updates, "LABEL_PATIENCE", 10**9)
+    by_objective = fit()
+    assert by_labels.n_iter_ < by_objective.n_iter_ / 2 and by_objective.n_iter_ < by_objective.max_iter
+    np.testing.assert_array_equal(by_labels.patient_factor_.argmax(axis=1), by_objective.patient_factor_.argmax(axis=1))
+    assert by_labels.objective_[-1] == pytest.approx(by_objective.objective_[-1], rel=1e-2)
+
+
+def test_labels_with_an_empty_component_do_not_stop_the_fit(monkeypatch):
+    # Every patient in one argmax component (it carries the profile common to all): such
+    # labels never count as settled, so the fit ends where the objective rule alone ends it,
+    # later than the label rule could have.
+    views, _ = planted_views(n_patients=120, seed=5)
+    start = np.tile([1.0, 0.1, 0.1], (120, 1))
+
+    def fit():
+        return JointNMF(3, graph_weight=0.0, tol=1e-8).fit(views, W_init=start)
+
+    with_rule, earliest = fit(), updates.LABEL_PATIENCE + 1
+    assert np.bincount(with_rule.patient_factor_.argmax(axis=1), minlength=3).tolist() == [120, 0, 0]
+    monkeypatch.setattr(updates, "LABEL_PATIENCE", 10**9)
+    assert with_rule.n_iter_ == fit().n_iter_ > earliest

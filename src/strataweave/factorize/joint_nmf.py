@@ -43,8 +43,10 @@ class JointNMF(BaseEstimator):
 
     Parameters: `n_components` (rank); `graph_weight`; `max_iter`; `tol` (decrease of the
     objective in one iteration as a share of its scale sum_v alpha_v ||X_v||^2, the objective
-    of the zero model: below it for 3 iterations in a row = converged, the same rule with or
-    without the graph and at every cohort size); `init` ("nndsvda",
+    of the zero model: converged when it is below tol for 3 iterations in a row, or below
+    10 x tol for 5 iterations in a row in which the argmax labels of W, every component in
+    use, did not change; the same rule with or without the graph and at every cohort size,
+    see `updates.iterate`); `init` ("nndsvda",
     "nndsvd" or "random"; restarts after the first are random); `n_restarts` (the lowest
     objective wins); `random_state`; `dtype` ("float64" or "float32"); `modality_weights`
     (alpha_v, default 1 / ||X_v||_F^2); `inner_updates` (most cheap inner updates per outer
@@ -140,7 +142,7 @@ class JointNMF(BaseEstimator):
                 best = result
         if not best.converged:
             warnings.warn(
-                f"JointNMF stopped at max_iter={self.max_iter} before the objective settled (tol={self.tol}); "
+                f"JointNMF stopped at max_iter={self.max_iter} before the objective or the labels settled (tol={self.tol}); "
                 "raise max_iter or tol",
                 ConvergenceWarning,
                 stacklevel=2,

@@ -34,6 +34,8 @@ from strataweave.factorize.views import ViewBlock
 
 INNER_STOP = 0.1  # inner updates stop once a step moves less than this share of the first step
 PATIENCE = 3  # converged after this many consecutive iterations with a decrease below tol x scale
+LABEL_PATIENCE = 5  # or after this many consecutive iterations with settled labels ...
+LABEL_SLACK = 10.0  # ... and a decrease below LABEL_SLACK x tol x scale in each
 
 
 @dataclass
@@ -314,12 +316,18 @@ def update_loadings(H, block: ViewBlock, W_rows, WtX, WtW, ridge, n_updates: int
 
 def iterate(blocks, W, loadings, smoothness: GraphSmoothness | None, *, max_iter: int, tol: float,
             n_updates: int) -> FitResult:
-    """Outer iterations from (W, loadings) until the objective settles or `max_iter`.
+    """Outer iterations from (W, loadings) until the objective or the labels settle, or `max_iter`.
 
-    Settled: the objective decreased by less than `tol` x `objective_scale(blocks)` in
-    PATIENCE consecutive iterations; the scale is fixed by the data, so the rule means the
-    same with or without the graph term, for every cohort size and every restart. Inner
-    updates also stop once a step moves its factor by less than `tol` of its size.
+    Converged, by whichever comes first (decreases are measured against the fixed data scale
+    `objective_scale(blocks)`, so both rules mean the same with or without the graph term, for
+    every cohort size and every restart):
+      - the objective decreased by less than `tol` x scale in PATIENCE consecutive iterations;
+      - the labels (argmax of each row of the normalised W) stayed the same, with every
+        component labelling some patient, and the objective decreased by less than
+        LABEL_SLACK x `tol` x scale, in LABEL_PATIENCE consecutive iterations. An empty
+        component means one component carries the profile common to all patients (see
+        `labels`), so those labels say nothing about the subtypes and do not count.
+    Inner updates also stop once a step moves its factor by less than `tol` of its size.
     """
     n, k = W.shape
     threshold = tol * objective_scale(blocks)
@@ -330,7 +338,8 @@ def iterate(blocks, W, loadings, smoothness: GraphSmoothness | None, *, max_iter
     masked = any(b.entry_mask is not None for b in blocks)
     with switch():
         normalise(W, loadings, blocks)
-    objective, quiet, errors, graph_product = [], 0, [], None
+    objective, quiet, steady, converged, errors, graph_product = [], 0, 0, False, [], None
+    labels = W.argmax(axis=1)
     for _ in range(max_iter):
         P = data_times_loadings(blocks, loadings, W.shape)
         with switch():
@@ -348,8 +357,13 @@ def iterate(blocks, W, loadings, smoothness: GraphSmoothness | None, *, max_iter
             root = normalise(W, loadings, blocks)
             if graph_product is not None:
                 graph_product *= root
+        previous, labels = labels, W.argmax(axis=1)
         if len(objective) > 1:
-            quiet = quiet + 1 if objective[-2] - objective[-1] < threshold else 0
-            if quiet >= PATIENCE:
+            decrease = objective[-2] - objective[-1]
+            quiet = quiet + 1 if decrease < threshold else 0
+            settled = np.array_equal(labels, previous) and np.bincount(labels, minlength=k).all()
+            steady = steady + 1 if decrease < LABEL_SLACK * threshold and settled else 0
+            converged = quiet >= PATIENCE or steady >= LABEL_PATIENCE
+            if converged:
                 break
-    return FitResult(W, [np.array(H) for H in loadings], objective, errors, quiet >= PATIENCE)
+    return FitResult(W, [np.array(H) for H in loadings], objective, errors, converged)
