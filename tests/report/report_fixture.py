@@ -42,6 +42,30 @@ def _consensus(codes: np.ndarray, rng: np.random.Generator) -> np.ndarray:
     return matrix.astype(np.float32)
 
 
+def _modality_view_arrays(rng: np.random.Generator, codes: np.ndarray, n_modalities: int, feature_prefix: str,
+                          marker_blocks: int) -> dict[str, np.ndarray]:
+    """Invented per-modality maps, separation, factor shares and loadings, and volcano arrays (plotting input only)."""
+    arrays: dict[str, np.ndarray] = {}
+    for m in range(n_modalities):
+        arrays[f"modality_{m}_map"] = rng.normal(size=(codes.size, 2)) + codes[:, None] * (2.0 - m)
+        arrays[f"modality_{m}_map_codes"] = codes
+        arrays[f"modality_{m}_map_variance"] = np.array([0.21, 0.08])
+    arrays["modality_separation"] = rng.uniform(-0.1, 0.6, size=(n_modalities, 3))
+    contribution = rng.uniform(0.2, 1.0, size=(n_modalities, 3))
+    arrays["factor_contribution"] = contribution / contribution.sum(axis=0)
+    arrays["factor_top_share"] = np.sort(rng.uniform(0.01, 0.05, size=(3, 8)), axis=1)[:, ::-1]
+    arrays["factor_top_feature"] = np.array([[f"{feature_prefix}{j}_{t} +" for t in range(8)] for j in range(3)])
+    arrays["factor_top_modality"] = rng.integers(0, n_modalities, size=(3, 8))
+    arrays["factor_subtype_mean"] = np.eye(3) * 0.05 + 0.01
+    for i in range(marker_blocks):
+        difference = rng.normal(scale=0.6, size=(3, 40))
+        arrays[f"volcano_{i}_difference"] = difference
+        arrays[f"volcano_{i}_p"] = np.exp(-6 * np.abs(difference)) * rng.uniform(0.2, 1.0, size=(3, 40))
+        arrays[f"volcano_{i}_significant"] = arrays[f"volcano_{i}_p"] < 0.01
+        arrays[f"volcano_{i}_features"] = np.array([f"{feature_prefix}{i}_{j}" for j in range(40)])
+    return arrays
+
+
 def make_results(modality_names=("rna", "methylation"), feature_prefix="FX", title="Fictional biobank run",
                  show_patient_ids=False, survival=True, markers=True, n=60,
                  clinical_name="stage") -> tuple[dict, dict]:
@@ -220,6 +244,8 @@ def make_results(modality_names=("rna", "methylation"), feature_prefix="FX", tit
         results["enrichment_summary"] = {"rank_test_rows": [
             {"subtype": LABELS[s], "gene_set": f"{feature_prefix} set {s}-0", "set_size": 20, "auc": 0.8 - 0.05 * s,
              "z": 4.0, "p_value": 1e-4, "p_adjusted": 1e-3} for s in range(3)]}
+    arrays.update(_modality_view_arrays(rng, codes, len(modality_names), feature_prefix,
+                                        len(modality_names) if markers else 0))
     return results, arrays
 
 

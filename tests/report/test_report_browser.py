@@ -96,6 +96,7 @@ def test_caution_visible_top_and_bottom(visits):
     assert seen["bottom"]["topOnLoad"] > seen["top"]["bottomOnLoad"]
 
 
-def test_every_embedded_figure_decodes(visits):
+def test_every_embedded_figure_decodes(visits, rendered):
     report, _ = visits
-    assert len(report.evaluated["images"]) == 15 and all(report.evaluated["images"])
+    drawn = len(list((Path(rendered) / "figures").glob("*.png")))
+    assert drawn == 20 and len(report.evaluated["images"]) == drawn and all(report.evaluated["images"])

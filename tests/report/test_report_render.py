@@ -39,7 +39,8 @@ def test_every_figure_written_as_png_and_svg(rendered):
     assert pngs == svgs
     assert {"cohort_presence", "cohort_filters", "graph_agreement", "selection_evidence", "selection_consensus",
             "selection_split_flow", "subtype_sizes", "subtype_embedding", "subtype_confidence", "subtype_baselines",
-            "survival_kaplan_meier", "survival_cox_forest", "markers_1", "markers_2", "enrichment_dots"} == set(pngs)
+            "modality_maps", "factor_contributions", "factor_loadings", "survival_kaplan_meier", "survival_cox_forest",
+            "markers_1", "markers_1_volcano", "markers_2", "markers_2_volcano", "enrichment_dots"} == set(pngs)
     for name in pngs:
         image = mpimg.imread(rendered / "figures" / f"{name}.png")
         assert image.shape[0] > 200 and image.shape[1] > 400
@@ -60,7 +61,7 @@ def test_html_is_self_contained(page):
     assert "<script" not in page.lower()
     assert not re.search(r"""(src|href)\s*=\s*["']?(https?:|//)""", page, flags=re.IGNORECASE)
     sources = re.findall(r'<img src="([^"]+)"', page)
-    assert len(sources) == 15 and all(s.startswith("data:image/png;base64,") for s in sources)
+    assert len(sources) == 20 and all(s.startswith("data:image/png;base64,") for s in sources)
     assert "default-src 'none'" in page
 
 

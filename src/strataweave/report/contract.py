@@ -411,6 +411,26 @@ ARRAYS: tuple[ArraySpec, ...] = (
     ArraySpec("markers_{i}_features", "U", "(f,)", "feature name of each heatmap row", "markers present"),
     ArraySpec("markers_{i}_feature_code", "i", "(f,)", "subtype code each marker row belongs to", "markers present"),
     ArraySpec("markers_{i}_patient_code", "i", "(p,)", "subtype code of each heatmap column, non-decreasing", "markers present"),
+    ArraySpec("modality_{m}_map", "f", "(p_m, 2)", "first two principal components of modality m's normalised profile, "
+              "its grouped patients with at least 3 of them (absent otherwise)", "optional"),
+    ArraySpec("modality_{m}_map_codes", "i", "(p_m,)", "subtype code of each patient of modality_{m}_map", "optional"),
+    ArraySpec("modality_{m}_map_variance", "f", "(2,)", "share of the variance of each of the two components",
+              "optional"),
+    ArraySpec("modality_separation", "f", "(M, K)", "mean silhouette of each subtype's patients in each modality, "
+              "-1..1, NaN where not measured", "optional"),
+    ArraySpec("factor_contribution", "f", "(M, r)", "share of factor j's loading held by modality m (columns sum to 1)",
+              "optional"),
+    ArraySpec("factor_top_share", "f", "(r, t)", "share of factor j's loading held by each of its top features",
+              "optional"),
+    ArraySpec("factor_top_feature", "U", "(r, t)", "name of each top feature ('name +' / 'name -': a sign-split part)",
+              "optional"),
+    ArraySpec("factor_top_modality", "i", "(r, t)", "modality position of each top feature", "optional"),
+    ArraySpec("factor_subtype_mean", "f", "(K, r)", "mean patient factor of each subtype", "optional"),
+    ArraySpec("volcano_{i}_difference", "f", "(K, F)", "marker block i: difference of means, subtype minus the rest, "
+              "of every feature tested", "optional"),
+    ArraySpec("volcano_{i}_p", "f", "(K, F)", "marker block i: p of every feature's test", "optional"),
+    ArraySpec("volcano_{i}_significant", "b", "(K, F)", "adjusted p below the marker threshold", "optional"),
+    ArraySpec("volcano_{i}_features", "U", "(F,)", "feature names of the volcano columns", "optional"),
 )
 
 
@@ -533,6 +553,8 @@ def expected_arrays(results: Mapping[str, Any]) -> list[tuple[str, ArraySpec]]:
     }
     names: list[tuple[str, ArraySpec]] = []
     for spec in ARRAYS:
+        if spec.needed_when == "optional":
+            continue
         if "{k}" in spec.name:
             if "selection" in results:
                 names += [(spec.name.format(k=k), spec) for k in results["selection"]["counts"]]

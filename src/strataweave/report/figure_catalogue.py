@@ -8,8 +8,8 @@ from pathlib import Path
 from typing import Callable
 
 from strataweave.report import figures_biology, figures_cohort, figures_evidence, figures_outcome
-from strataweave.report import figures_selection, figures_subtypes
-from strataweave.report.figure_style import FIGURE_SIZE, new_figure, report_style, save_figure
+from strataweave.report import figures_modalities, figures_selection, figures_subtypes, figures_volcano
+from strataweave.report.figure_style import FIGURE_SIZE, grid_rows, new_figure, report_style, save_figure
 from strataweave.report.run_folder import RunView
 
 FIGURES_DIR = "figures"
@@ -35,6 +35,51 @@ class DrawnFigure:
 def marker_blocks(run: RunView) -> list[tuple[int, dict]]:
     """(index, block) of the modalities with at least one marker: a heatmap without rows shows nothing."""
     return [(index, block) for index, block in enumerate(run.results.get("markers") or []) if block["rows"]]
+
+
+def modality_plans(run: RunView) -> list[FigurePlan]:
+    """Each layer's map with the separation table, and the factors' shares and top loadings, where the run has them."""
+    plans = []
+    mapped = figures_modalities.mapped_modalities(run)
+    if mapped:
+        rows = grid_rows(len(mapped) + 1, figures_modalities.MAP_COLUMNS)
+        plans.append(FigurePlan(
+            "modality_maps", "modalities",
+            "Each omics layer's patients on its first two principal components, coloured by subtype, and how well "
+            "the layer keeps each subtype apart (mean silhouette: near 1 apart, near 0 mixed, below 0 closer to "
+            "another subtype).", figures_modalities.draw_modality_maps, (12.0, 1.4 + 3.6 * rows)))
+    if "factor_contribution" in run.arrays:
+        factors = run.arrays["factor_contribution"].shape[1]
+        plans += [
+            FigurePlan("factor_contributions", "modalities",
+                       "The share of each factor's loading that each modality holds; each factor is named by the "
+                       "subtype whose patients score highest on it.", figures_modalities.draw_factor_contributions,
+                       (11.0, 2.6 + 0.7 * len(run.results["cohort"]["modalities"]))),
+            FigurePlan("factor_loadings", "modalities",
+                       "The features with the largest loadings on each factor, across all layers.",
+                       figures_modalities.draw_factor_loadings,
+                       (12.0, 1.4 + 3.3 * grid_rows(factors, figures_modalities.LOADING_COLUMNS))),
+        ]
+    return plans
+
+
+def marker_plans(run: RunView) -> list[FigurePlan]:
+    """Per modality, the heatmap of its top markers (when it has any) and beside it the volcano of every feature."""
+    heatmaps = dict(marker_blocks(run))
+    volcanoes = set(figures_volcano.volcano_blocks(run))
+    plans = []
+    for index, block in enumerate(run.results.get("markers") or []):
+        if index in heatmaps:
+            plans.append(FigurePlan(f"markers_{index + 1}", "markers", f"Top markers per subtype in {block['modality']}.",
+                                    partial(figures_biology.draw_marker_heatmap, index=index), (12.0, 7.0)))
+        panels = len(figures_volcano.tested_subtypes(run, index)) if index in volcanoes else 0
+        if panels:
+            plans.append(FigurePlan(
+                f"markers_{index + 1}_volcano", "markers",
+                f"Every feature tested in {block['modality']}: difference of means against p, one panel per "
+                "subtype; the highest markers are named.", partial(figures_volcano.draw_volcano, index=index),
+                (12.0, 1.6 + 3.0 * grid_rows(panels, figures_volcano.COLUMNS))))
+    return plans
 
 
 def plan_figures(run: RunView) -> list[FigurePlan]:
@@ -80,6 +125,7 @@ def plan_figures(run: RunView) -> list[FigurePlan]:
     if run.has("baselines"):
         plans.append(FigurePlan("subtype_baselines", "subtypes", "Agreement of the baseline methods with our subtypes.",
                                 figures_subtypes.draw_baselines, (10.0, 1.8 + 0.8 * len(run.results["baselines"]))))
+    plans += modality_plans(run)
     if run.has("survival"):
         plans.append(FigurePlan("survival_kaplan_meier", "survival", "Kaplan-Meier curves with numbers at risk.",
                                 figures_outcome.draw_kaplan_meier, (11.0, 7.0)))
@@ -87,10 +133,7 @@ def plan_figures(run: RunView) -> list[FigurePlan]:
             plans.append(FigurePlan("survival_cox_forest", "survival",
                                     "Hazard ratios of the Cox model with 95% intervals.", figures_outcome.draw_forest,
                                     (12.0, 1.8 + 0.6 * len(run.results["survival"]["cox"]))))
-    for index, block in marker_blocks(run):
-        plans.append(FigurePlan(f"markers_{index + 1}", "markers",
-                                f"Top markers per subtype in {block['modality']}.",
-                                partial(figures_biology.draw_marker_heatmap, index=index), (12.0, 7.0)))
+    plans += marker_plans(run)
     if run.has("enrichment") and figures_biology.enrichment_rows(run):
         plans.append(FigurePlan("enrichment_dots", "enrichment", "Top over-represented gene sets per subtype.",
                                 figures_biology.draw_enrichment, (12.0, 7.0)))

@@ -82,3 +82,17 @@ def cell_borders(ax: Axes, rows: int, columns: int) -> None:
     ax.set_yticks(np.arange(rows + 1) - 0.5, minor=True)
     ax.grid(which="minor", color="white", linewidth=2)
     ax.tick_params(which="minor", length=0)
+
+
+def grid_rows(panels: int, columns: int) -> int:
+    """Rows of a grid of at most `columns` panels per row."""
+    return -(-panels // columns)
+
+
+def panel_grid(fig, panels: int, columns: int, **options) -> list[Axes]:
+    """`panels` axes in rows of at most `columns`; the unused cells of the last row are removed, never left blank."""
+    columns = min(columns, panels)
+    axes = list(np.ravel(fig.subplots(grid_rows(panels, columns), columns, squeeze=False, **options)))
+    for ax in axes[panels:]:
+        ax.remove()
+    return axes[:panels]

@@ -11,6 +11,7 @@ from jinja2 import Environment, PackageLoader, StrictUndefined
 
 from strataweave.caution import CAUTION
 from strataweave.report.figure_catalogue import DrawnFigure
+from strataweave.report.figures_modalities import map_notes
 from strataweave.report.figures_outcome import logrank_sentence
 from strataweave.report.findings import findings
 from strataweave.report.formatting import format_p, format_value
@@ -114,6 +115,7 @@ def report_context(run: RunView, figures: list[DrawnFigure]) -> dict[str, Any]:
         "survival": survival,
         "logrank": logrank_sentence(survival) if survival else None,
         "findings": findings(run),
+        "map_notes": map_notes(run) if run.has_modalities else [],
         "split_features": _split_modalities(results),
         "clinical": rows_table(results["clinical"], CLINICAL_COLUMNS) if run.has("clinical") else None,
         "clinical_summary": clinical_summary_table(results["clinical_summary"]) if run.has("clinical_summary")

@@ -10,6 +10,7 @@ import numpy as np
 import pandas as pd
 
 from strataweave.workflow.grouping import ReportedGrouping
+from strataweave.workflow.modality_figures import factor_arrays, modality_map_arrays, volcano_arrays
 
 MAX_CONSENSUS_SIDE = 600
 
@@ -88,6 +89,14 @@ def build_figure_data(
     evaluation = stage_results["evaluate"]
     if "survival" in evaluation:
         arrays.update(_survival_arrays(evaluation["survival"]["summary"]))
+    names = [row["name"] for row in results["cohort"]["modalities"]]
+    if views:
+        arrays.update(modality_map_arrays(names, views, grouping))
+    if "final_fit" in stage_results:
+        arrays.update(factor_arrays(names, stage_results["final_fit"]["model"], prepared["views"], grouping))
+    markers = evaluation.get("markers") or {}
     for i, section in enumerate(results.get("markers", [])):
         arrays.update(_marker_arrays(i, views[section["modality"]], section["rows"], grouping))
+        modality = section["modality"]
+        arrays.update(volcano_arrays(i, markers["tables"][modality], markers["summary"][modality]["fdr"], grouping))
     return arrays
