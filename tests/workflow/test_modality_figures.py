@@ -96,3 +96,13 @@ def test_volcano_arrays_are_the_marker_table_pivoted(layers) -> None:
     assert np.allclose(arrays["volcano_0_p"], pivot["p_value"].loc[NAMES, ["a", "b", "c", "d"]])
     assert np.array_equal(arrays["volcano_0_significant"], (pivot["p_adjusted"] < 0.5).loc[NAMES].to_numpy())
     assert list(arrays["volcano_0_features"]) == ["a", "b", "c", "d"]
+
+
+def test_an_empty_cell_inside_a_measured_profile_takes_the_feature_mean(layers) -> None:
+    views, grouping = layers
+    holed = views["apart"].copy()
+    holed.iloc[3, 2] = np.nan
+    filled = views["apart"].copy()
+    filled.iloc[3, 2] = holed.iloc[:, 2].mean()  # pandas' mean skips the empty cell
+    maps = [modality_map_arrays(["apart"], {"apart": view}, grouping)["modality_0_map"] for view in (holed, filled)]
+    assert np.allclose(maps[0], maps[1])

@@ -27,9 +27,8 @@ def _measured(view: pd.DataFrame, grouping: ReportedGrouping) -> tuple[np.ndarra
     """Values (missing cells at the feature mean) and subtype codes of the grouped patients measured here."""
     codes = pd.Series(grouping.codes, index=grouping.patients)
     rows = view[view.notna().any(axis=1) & view.index.isin(grouping.patients)]
-    values = rows.to_numpy(dtype=np.float64)
-    values = np.where(np.isnan(values), np.nanmean(values, axis=0, keepdims=True), values) if values.size else values
-    return np.nan_to_num(values), codes.loc[rows.index].to_numpy(dtype=np.int64)
+    values = rows.fillna(rows.mean()).fillna(0.0).to_numpy(dtype=np.float64)
+    return values, codes.loc[rows.index].to_numpy(dtype=np.int64)
 
 
 def _separation(components: np.ndarray, codes: np.ndarray, n_subtypes: int) -> np.ndarray:
