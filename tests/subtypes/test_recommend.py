@@ -30,6 +30,23 @@ def test_near_ties_in_pac_go_to_the_largest_equally_crisp_count():
     assert recommend_count(merged_as_crisp, min_size=10).count == 3
 
 
+def test_a_count_a_little_less_crisp_is_chosen_where_the_graph_confirms_its_cut():
+    # A weak contrast missed in some resamples raises PAC a little at the planted count (4 here); a
+    # stable bisection of one homogeneous group (5 here) does too, but leaves no gap in the spectrum.
+    table = criteria([0.0, 0.005, 0.03, 0.04], [1.0, 0.99, 0.97, 0.96], [80, 40, 30, 20]).assign(
+        eigengap=[0.10, 0.30, 0.20, 0.05]
+    )
+    choice = recommend_count(table, min_size=10)
+    assert choice.count == 4
+    assert "confirms, its eigengap (0.200) being at least half the largest among those counts (0.300 at 3)" in choice.reason
+    assert choice.reason.endswith("Equally crisp: 2, 3.")
+    assert recommend_count(table.assign(eigengap=[0.1, 0.3, 0.2, 0.2]), min_size=10).count == 5
+    no_clear_cut = table.assign(eigengap=[0.010, 0.030, 0.020, 0.005])
+    assert recommend_count(no_clear_cut, min_size=10).count == 3  # within pac_tolerance 0.01 only
+    without_gaps = table.drop(columns="eigengap")
+    assert recommend_count(without_gaps, min_size=10).count == 3
+
+
 def test_never_a_count_whose_smallest_subtype_is_below_min_size():
     table = criteria([0.30, 0.20, 0.0, 0.25], [0.5, 0.7, 1.0, 0.6], [80, 40, 3, 20])
     choice = recommend_count(table, min_size=10)

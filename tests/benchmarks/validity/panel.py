@@ -100,6 +100,12 @@ def run_cohort(name, layers, kinds, truth, counts, extra="") -> dict:
     if KEEP is not None:
         ari = {k: adjusted_rand_score(truth, table["subtype"]) for k, table in sweep["assignments"].items()}
         sweep["criteria"].assign(rule=selected["count"], ari=pd.Series(ari)).to_csv(KEEP / f"{name}_criteria.tsv", sep="\t")
+        np.savez_compressed(
+            KEEP / f"{name}_sweep.npz", truth=truth.to_numpy(),
+            **{f"labels_{k}": table["subtype"].to_numpy() for k, table in sweep["assignments"].items()},
+            **{f"consensus_{k}": matrix.astype(np.float16) for k, matrix in sweep["consensus"].items()},
+            **{f"resamples_{k}": labels for k, labels in sweep["resample_labels"].items()},
+        )
     given = sweep["assignments"][true_count]["subtype"] if true_count in sweep["assignments"] else None
     views = {key: frame.reindex(patients) for key, frame in normalised_views(prepared).items()}
     row = {"cohort": name, "patients": len(patients), "views": len(layers), "true": true_count,
