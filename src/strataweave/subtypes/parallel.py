@@ -16,6 +16,7 @@ compute other numbers for the same seed.
 from __future__ import annotations
 
 import ast
+import os
 import warnings
 from collections.abc import Callable, Iterator, Sequence
 from contextlib import ExitStack, contextmanager
@@ -35,6 +36,13 @@ from threadpoolctl import threadpool_info, threadpool_limits
 from strataweave.errors import InputError
 
 BACKENDS = ("serial", "processes", "dask")
+
+
+def available_cores() -> int:
+    """The cores this process may run on (its CPU affinity where the system tells it)."""
+    if hasattr(os, "sched_getaffinity"):
+        return len(os.sched_getaffinity(0))
+    return os.cpu_count() or 1
 
 
 class TaskCheckpoint(Protocol):

@@ -27,7 +27,7 @@ from strataweave.graph import fuse_modalities
 from strataweave.graph.kernels import KERNELS
 from strataweave.graph.metrics import METRICS
 from strataweave.graph.rules import RULES
-from strataweave.subtypes.parallel import BACKENDS, ParallelSettings
+from strataweave.subtypes.parallel import BACKENDS
 from strataweave.subtypes.settings import LABELS_FROM, START_FROM, SweepSettings
 from strataweave.workflow import rules
 
@@ -169,8 +169,8 @@ class ResamplingSettings:
     feature_fraction: float = key(rules.number(maximum=1, above=0), SweepSettings.feature_fraction, doc="share of features per resample")
     restarts: int = key(rules.integer(1), SweepSettings.resample_restarts, doc="NMF restarts per resample")
     warm_start: bool = key(rules.flag(), SweepSettings.warm_start, doc="start resamples from the full-data factors")
-    backend: str = key(rules.choice(*BACKENDS), ParallelSettings.backend)
-    jobs: int = key(rules.integer(1), ParallelSettings.n_jobs)
+    backend: str = key(rules.choice(*BACKENDS), "processes", doc="results are the same on each")
+    jobs: int = key(rules.integer(0), 0, doc="workers; 0 = every core this process may use")
     scheduler: str | None = key(rules.text(), None, doc="Dask scheduler address (backend = dask)")
 
 

@@ -16,7 +16,7 @@ import pandas as pd
 
 from strataweave.factorize import JointNMF
 from strataweave.factorize.views import relative_modality_weights
-from strataweave.subtypes.parallel import ParallelSettings
+from strataweave.subtypes.parallel import ParallelSettings, available_cores
 from strataweave.subtypes.projection import placement, project_patients
 from strataweave.subtypes.recommend import Recommendation
 from strataweave.subtypes.result import SweepResult, subtype_labels, subtype_names
@@ -70,7 +70,8 @@ def run_sweep(
     views = dict(zip(prepared["views"], aligned_views(prepared)))
     profiles = {name: frame.reindex(prepared["patients"]) for name, frame in normalised_views(prepared).items()}
     parallel = ParallelSettings(
-        backend=flow.resampling.backend, n_jobs=flow.resampling.jobs, scheduler=flow.resampling.scheduler,
+        backend=flow.resampling.backend, n_jobs=flow.resampling.jobs or available_cores(),
+        scheduler=flow.resampling.scheduler,
         checkpoint=None if work is None else ResampleCheckpoint(work, feedback.say),
     )
     with feedback.bar("subtype count sweep", planned_tasks(flow.subtypes.counts, settings)) as progress:
