@@ -9,17 +9,6 @@ import pandas as pd
 
 from strataweave.errors import InputError
 
-RULE = (
-    "Only counts whose smallest subtype has at least min_size patients are eligible. Among "
-    "them, the counts whose PAC lies within pac_tolerance of the lowest eligible PAC are "
-    "equally crisp: resamples keep splitting the patients the same way. A count whose PAC lies "
-    "within 0.05 of the lowest is crisp too where the fused graph confirms it: its eigengap is "
-    "at least half the largest eigengap among those counts, and that largest eigengap is at "
-    "least 0.05 (a graph without any clear cut confirms nothing). The largest crisp count is "
-    "chosen. A count chosen by the user replaces the rule's choice but must also be eligible. "
-    "Where another eligible count has partitions that fit the fused graph better (higher "
-    "modularity), the reason names it as the runner-up, so that both can be examined."
-)
 # Why the largest crisp count: merging two real subtypes is often just as consistent across
 # resamples as keeping them apart (PAC near 0 for both counts), while splitting one
 # homogeneous group at random is not; min_size keeps the rule from rewarding a tiny
@@ -35,6 +24,18 @@ RULE = (
 CONFIRMED_TOLERANCE = 0.05  # PAC above the lowest that the graph's confirmation can make crisp
 CLEAR_CUT_SHARE = 0.5  # of the largest eigengap among those counts
 CLEAR_GAP = 0.05  # the least largest eigengap that confirms anything
+
+RULE = (
+    "Only counts whose smallest subtype has at least min_size patients are eligible. Among "
+    "them, the counts whose PAC lies within pac_tolerance of the lowest eligible PAC are "
+    "equally crisp: resamples keep splitting the patients the same way. A count whose PAC lies "
+    f"within {CONFIRMED_TOLERANCE:g} of the lowest is crisp too where the fused graph confirms it: its "
+    f"eigengap is at least {CLEAR_CUT_SHARE:g} of the largest eigengap among those counts, and that "
+    f"largest eigengap is at least {CLEAR_GAP:g} (a graph without any clear cut confirms nothing). The "
+    "largest crisp count is chosen. A count chosen by the user replaces the rule's choice but must "
+    "also be eligible. Where another eligible count has partitions that fit the fused graph better "
+    "(higher modularity), the reason names it as the runner-up, so that both can be examined."
+)
 
 
 @dataclass(frozen=True)
