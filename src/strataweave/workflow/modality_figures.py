@@ -105,14 +105,15 @@ def volcano_arrays(i: int, table: pd.DataFrame, fdr: float, grouping: ReportedGr
     features = pd.Index(pd.unique(table["feature"]))
     rows = table["group"].astype(str).map({name: code for code, name in enumerate(grouping.names)}).to_numpy()
     columns = features.get_indexer(table["feature"])
-    shape = (len(grouping.names), len(features))
-    difference, p_value, p_adjusted = np.full(shape, np.nan), np.full(shape, np.nan), np.full(shape, np.nan)
-    difference[rows, columns] = table["difference"].to_numpy(dtype=np.float64)
-    p_value[rows, columns] = table["p_value"].to_numpy(dtype=np.float64)
-    p_adjusted[rows, columns] = table["p_adjusted"].to_numpy(dtype=np.float64)
+
+    def grid(column: str) -> np.ndarray:
+        values = np.full((len(grouping.names), len(features)), np.nan)
+        values[rows, columns] = table[column].to_numpy(dtype=np.float64)
+        return values
+
     return {
-        f"volcano_{i}_difference": difference,
-        f"volcano_{i}_p": p_value,
-        f"volcano_{i}_significant": np.nan_to_num(p_adjusted, nan=1.0) < fdr,
+        f"volcano_{i}_difference": grid("difference"),
+        f"volcano_{i}_p": grid("p_value"),
+        f"volcano_{i}_significant": np.nan_to_num(grid("p_adjusted"), nan=1.0) < fdr,
         f"volcano_{i}_features": features.to_numpy(dtype=str),
     }
