@@ -129,10 +129,12 @@ class SubtypeSweep(Shown, BaseEstimator):
         return ax
 
     def plot_consensus(self, count: int | None = None, ax=None):
-        """The consensus matrix at `count` (default: recommended), patients ordered by subtype."""
+        """The consensus matrix at `count` (default: recommended), patients ordered by subtype
+        (above `consensus.KEPT_SIDE` patients, the seeded sample the sweep kept)."""
         result = fitted(self, "result_")
         count = self.recommended_count_ if count is None else count
-        order = np.argsort(result.assignments[count]["subtype"].to_numpy(), kind="stable")
+        codes = result.assignments[count]["subtype"].to_numpy()[result.consensus_patients]
+        order = np.argsort(codes, kind="stable")
         ax = new_axes(ax)
         image = ax.imshow(result.consensus[count][np.ix_(order, order)], cmap=SEQUENTIAL, vmin=0, vmax=1)
         ax.figure.colorbar(image, ax=ax, label="consensus")

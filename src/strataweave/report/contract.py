@@ -161,6 +161,11 @@ RESULTS: dict[str, Entry] = {
             "recommended": Entry("integer", "the count the rule recommends"),
             "reason": Entry("text", "the recommendation's reason in one sentence"),
             "overridden": Entry("flag", "true when the user fixed the count instead", required=False),
+            "consensus_patients": Entry(
+                "integer", "patients the kept consensus matrices cover (the cophenetic correlation and the figure): "
+                "all of them, or a seeded sample in a large cohort; PAC and core patients cover every pair",
+                required=False,
+            ),
             "flow": _rows(
                 "how subtypes split from count k to k+1 (only non-zero cells)",
                 {

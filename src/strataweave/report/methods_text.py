@@ -54,6 +54,15 @@ PARTITION_WORDS = {  # candidate -> (name, how it was made)
 }
 
 
+def _sampled_phrase(results: dict) -> str:
+    """Where the consensus matrix was kept on a sample of a large cohort, say so (PAC never is)."""
+    kept = results["selection"].get("consensus_patients")
+    if kept is None or kept >= results["cohort"]["patients"]:
+        return ""
+    return (f" (on the consensus among a seeded sample of {kept} patients; the proportion of ambiguous "
+            "clustering and the core patients over all pairs)")
+
+
 def _partition_phrase(selection: dict, count: int, graph_name: str, cite) -> str:
     """Which candidate partition gave the subtypes, and the rule that chose it."""
     rows = {row["count"]: row for row in selection.get("partitions", [])}
@@ -136,7 +145,8 @@ def methods_paragraph(results: dict[str, Any], version: str | None = None) -> tu
             f"{factorisation} regularised by the {graph_name}{cite('cai2011')}{weight}.{start} "
             f"Subtype counts {format_value(selection['counts'])} were compared by consensus over {resamples}"
             f"{cite('monti2003')}, using the proportion of ambiguous clustering{pac}{cite('senbabaoglu2014')}, "
-            f"the cophenetic correlation{cite('brunet2004')}, the eigengap of the {graph_name}{cite('luxburg2007')} "
+            f"the cophenetic correlation{cite('brunet2004')}{_sampled_phrase(results)}, "
+            f"the eigengap of the {graph_name}{cite('luxburg2007')} "
             "and further criteria listed in the report.")
         sentences.append(_partition_phrase(selection, results["subtype_count"], graph_name, cite))
         sentences.append(_phrase("A patient was called core when its mean consensus with its own subtype across the "

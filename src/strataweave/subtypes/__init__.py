@@ -2,8 +2,8 @@
 recommendation, baselines, partition comparison and parallel backends."""
 
 from strataweave.subtypes.compare import PartitionComparison, compare_partitions, split_flow
-from strataweave.subtypes.consensus import consensus_matrix, consensus_with_subtypes, core_flags
-from strataweave.subtypes.criteria import cophenetic_correlation, pac, resample_stability
+from strataweave.subtypes.consensus import ConsensusSummary, consensus_matrix, summarise_consensus
+from strataweave.subtypes.criteria import cophenetic_correlation, resample_stability
 from strataweave.subtypes.parallel import ParallelSettings, TaskRunner, run_tasks
 from strataweave.subtypes.recommend import RULE, Recommendation, recommend_count
 from strataweave.subtypes.result import SweepResult
@@ -12,6 +12,7 @@ from strataweave.subtypes.sweep import planned_tasks, sweep_subtype_counts
 
 __all__ = [
     "RULE",
+    "ConsensusSummary",
     "ParallelSettings",
     "PartitionComparison",
     "Recommendation",
@@ -20,14 +21,12 @@ __all__ = [
     "TaskRunner",
     "compare_partitions",
     "consensus_matrix",
-    "consensus_with_subtypes",
     "cophenetic_correlation",
-    "core_flags",
-    "pac",
     "planned_tasks",
     "recommend_count",
     "resample_stability",
     "run_tasks",
     "split_flow",
+    "summarise_consensus",
     "sweep_subtype_counts",
 ]

@@ -1,4 +1,5 @@
-"""Criteria that judge one subtype count from its consensus matrix and resample labels."""
+"""Criteria that judge one subtype count from its consensus matrix and resample labels (PAC is
+gathered with the consensus itself, in `consensus.summarise_consensus`)."""
 
 from __future__ import annotations
 
@@ -14,44 +15,13 @@ from strataweave.subtypes.consensus import NOT_DRAWN
 UNDEFINED_PAIR_DISTANCE = 0.5
 
 
-def check_window(window: tuple[float, float]) -> tuple[float, float]:
-    """The PAC window (lower, upper) with 0 <= lower < upper <= 1, or an InputError."""
-    try:
-        lower, upper = (float(v) for v in window)
-    except (TypeError, ValueError):
-        raise InputError(f"pac_window: found {window!r}; expected two numbers (lower, upper)") from None
-    if not 0.0 <= lower < upper <= 1.0:
-        raise InputError(f"pac_window: found ({lower}, {upper}); expected 0 <= lower < upper <= 1")
-    return lower, upper
-
-
-def _upper_pairs(consensus: np.ndarray) -> np.ndarray:
-    """Condensed vector of the patient pairs (upper triangle, as scipy's squareform)."""
-    return squareform(consensus, checks=False)
-
-
-def pac(consensus: np.ndarray, window: tuple[float, float] = (0.1, 0.9)) -> float:
-    """Proportion of ambiguous clustering (Senbabaoglu et al. 2014, Scientific Reports).
-
-    CDF(upper) - CDF(lower) of the consensus values over patient pairs, i.e. the share of
-    pairs with lower < consensus <= upper. Lower is better: a crisp consensus has values
-    near 0 and 1 only. Pairs never drawn together are left out.
-    """
-    lower, upper = check_window(window)
-    values = _upper_pairs(consensus)
-    values = values[np.isfinite(values)]
-    if values.size == 0:
-        return float("nan")
-    return float(np.mean((values > lower) & (values <= upper)))
-
-
 def cophenetic_correlation(consensus: np.ndarray) -> float:
     """Cophenetic correlation of the consensus matrix (Brunet et al. 2004, PNAS).
 
     Pearson correlation between the distances 1 - consensus and the cophenetic distances of
     their average-linkage tree; 1 for a perfect consensus, lower as it blurs.
     """
-    distances = 1.0 - _upper_pairs(consensus).astype(np.float64)
+    distances = 1.0 - squareform(consensus, checks=False).astype(np.float64)  # each pair once
     distances = np.where(np.isfinite(distances), distances, UNDEFINED_PAIR_DISTANCE)
     if distances.size < 2 or np.ptp(distances) == 0.0:
         return float("nan")

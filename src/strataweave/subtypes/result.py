@@ -60,7 +60,10 @@ class SweepResult:
     """Everything the sweep found, keyed by subtype count.
 
     criteria: one row per count, one column per criterion (see HIGHER_IS_BETTER).
-    consensus: count -> N x N float32 consensus matrix (NaN for pairs never drawn together).
+    consensus: count -> float32 consensus matrix among the patients at `consensus_patients`
+    (NaN for pairs never drawn together): all N patients up to `consensus.KEPT_SIDE`, above
+    that a seeded sample; PAC and core flags always cover every pair.
+    consensus_patients: positions (into `patients`) of the consensus matrices' rows and columns.
     assignments: count -> patients x [subtype, confidence, own_consensus, core, score_0..]
     from the full-data fit; confidence is the labeller's margin in [0, 1], own_consensus the
     patient's mean consensus with its subtype, core whether that exceeds core_threshold.
@@ -78,6 +81,7 @@ class SweepResult:
     counts: list[int]
     criteria: pd.DataFrame
     consensus: dict[int, np.ndarray]
+    consensus_patients: np.ndarray
     assignments: dict[int, pd.DataFrame]
     resample_labels: dict[int, np.ndarray]
     baseline_labels: dict[int, pd.DataFrame]
@@ -134,6 +138,7 @@ class SweepResult:
                 ],
                 "settings": self.settings.to_dict(),
                 "unconverged_fits": int(self.unconverged),
+                "consensus_patients": int(self.consensus_patients.size),
             },
             "subtypes": {
                 "labels": subtype_names(self.count),

@@ -7,7 +7,7 @@ from collections.abc import Iterable
 from dataclasses import asdict, dataclass
 
 from strataweave.errors import InputError
-from strataweave.subtypes.criteria import check_window
+from strataweave.subtypes.consensus import check_window
 from strataweave.subtypes.partitions import PARTITION_SOURCES
 
 

@@ -20,8 +20,8 @@ from strataweave.graph import PatientGraph, eigengaps, spectral_embedding
 from strataweave.seeding import child_seeds
 from strataweave.subtypes.baselines import concatenated_scaled
 from strataweave.subtypes.compare import compare_partitions, split_flow
-from strataweave.subtypes.consensus import consensus_matrix, core_flags
-from strataweave.subtypes.criteria import cophenetic_correlation, pac, resample_stability, smallest_subtype_size
+from strataweave.subtypes.consensus import kept_patients, summarise_consensus
+from strataweave.subtypes.criteria import cophenetic_correlation, resample_stability, smallest_subtype_size
 from strataweave.subtypes.parallel import ParallelSettings, TaskRunner
 from strataweave.subtypes.partitions import graph_degree, joint_coordinates
 from strataweave.subtypes.recommend import recommend_count
@@ -119,7 +119,7 @@ def sweep_subtype_counts(
         if fixed in factorization:
             raise InputError(f"factorization: found {fixed!r}; expected it left to the sweep")
 
-    full_root, resample_root, joint_root = child_seeds(random_state, 3)
+    full_root, resample_root, joint_root, kept_root = child_seeds(random_state, 4)
     concatenated = concatenated_scaled(list(_profile_arrays(profiles, patients, n_patients, arrays).values()))
     shared = SweepInputs(
         arrays, affinity, counts, factorization, settings, concatenated,
@@ -137,18 +137,21 @@ def sweep_subtype_counts(
 
     stacked = np.stack([fit.labels for fit in resamples], axis=1)  # counts x resamples x patients
     resample_labels = {k: stacked[i] for i, k in enumerate(counts)}
-    return _assemble(patients, affinity, counts, settings, fits, resample_labels, sum(r.unconverged for r in resamples))
+    kept = kept_patients(n_patients, kept_root)
+    unconverged = sum(r.unconverged for r in resamples)
+    return _assemble(patients, affinity, counts, settings, fits, resample_labels, kept, unconverged)
 
 
-def _assemble(patients, affinity, counts, settings, fits, resample_labels, resample_unconverged) -> SweepResult:
+def _assemble(patients, affinity, counts, settings, fits, resample_labels, kept, resample_unconverged) -> SweepResult:
     """Criteria, consensus, assignments, baselines, flow and recommendation from the fits."""
     embedding = spectral_embedding(affinity, n_dims=min(max(counts), len(patients) - 1))
     gaps = eigengaps(affinity, max(counts))["gap"]
     rows, consensus, assignments, baseline_labels, baseline_rows, partitions = {}, {}, {}, {}, [], {}
     for fit in fits:
         k = fit.count
-        consensus[k] = consensus_matrix(resample_labels[k])
-        own, core = core_flags(consensus[k], fit.labels, settings.core_threshold)
+        summary = summarise_consensus(resample_labels[k], fit.labels, settings.pac_window, kept)
+        consensus[k] = summary.matrix
+        own, core = summary.core(fit.labels, settings.core_threshold)
         scores = pd.DataFrame(fit.scores, index=patients, columns=[f"score_{j}" for j in range(k)])
         assignments[k] = pd.concat(
             [
@@ -161,7 +164,7 @@ def _assemble(patients, affinity, counts, settings, fits, resample_labels, resam
             axis=1,
         )
         rows[k] = {
-            "pac": pac(consensus[k], settings.pac_window),
+            "pac": summary.pac,
             "cophenetic": cophenetic_correlation(consensus[k]),
             "silhouette": _silhouette(embedding, fit.labels),
             "eigengap": float(gaps.loc[k]),
@@ -193,6 +196,7 @@ def _assemble(patients, affinity, counts, settings, fits, resample_labels, resam
         counts=counts,
         criteria=criteria,
         consensus=consensus,
+        consensus_patients=kept,
         assignments=assignments,
         resample_labels=resample_labels,
         baseline_labels=baseline_labels,

@@ -19,7 +19,7 @@ def _consensus_arrays(sweep: dict) -> dict[str, np.ndarray]:
     """Each count's consensus ordered by its subtypes, evenly thinned to at most 600 patients."""
     arrays = {}
     for k in sweep["counts"]:
-        codes = sweep["assignments"][k]["subtype"].to_numpy(dtype=np.int64)
+        codes = sweep["assignments"][k]["subtype"].to_numpy(dtype=np.int64)[sweep["consensus_patients"]]
         order = np.argsort(codes, kind="stable")
         if order.size > MAX_CONSENSUS_SIDE:
             order = order[np.unique(np.linspace(0, order.size - 1, MAX_CONSENSUS_SIDE).round().astype(np.int64))]
