@@ -1,4 +1,4 @@
-"""The command-line verbs: one function per verb, what each does, and how a fault is told.
+"""The command-line verbs, each from its parsed arguments to its files, its summary and its exit code.
 
 A verb takes its parsed arguments, writes its files and says a short summary: `run` and
 `evaluate` run a workflow's stages into a run folder, `check` reads and prepares the inputs

@@ -9,8 +9,8 @@ layers do the work. A stage's parameters hold exactly the settings its result de
 where the resamples run (backend, jobs, scheduler) is left out because the results do not
 depend on it, and input files enter by their sha256, not their path.
 
-Sections: load, prepare, graphs, sweep / select /
-final fit, the grouping a run reports, evaluate, and last the list of stages.
+Sections: load, prepare, graphs, sweep / select / final fit, the grouping a run reports,
+evaluate, and last the list of stages.
 """
 
 from __future__ import annotations
