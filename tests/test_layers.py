@@ -29,3 +29,17 @@ def test_numeric_layers_never_import_the_layers_above(layer):
         assert not upward, f"{module.name} imports {sorted(upward)}"
         if layer == "evaluate":
             assert not imported(module) & {"graph", "factorize"}, module.name
+
+
+#: The modules of `workflow/` in the order of `workflow/__init__.py`: each imports only those before it.
+WORKFLOW_MODULES = ("config", "progress", "cache", "stages", "run_folder", "outputs", "commands")
+
+
+def test_workflow_has_few_modules_each_importing_only_those_before_it():
+    folder = PACKAGE / "workflow"
+    assert {path.stem for path in folder.glob("*.py")} == {"__init__", *WORKFLOW_MODULES}  # issue 12: at most 8
+    for position, name in enumerate(WORKFLOW_MODULES):
+        tree = ast.parse((folder / f"{name}.py").read_text(encoding="utf-8"))
+        used = {node.module.split(".")[2] for node in ast.walk(tree) if isinstance(node, ast.ImportFrom)
+                and node.module and node.module.startswith("strataweave.workflow.")}
+        assert used <= set(WORKFLOW_MODULES[:position]), f"{name} imports {sorted(used - set(WORKFLOW_MODULES[:position]))}"

@@ -2,7 +2,7 @@
 
 Exit codes: 0 done; 2 bad input or a bad path (one line naming it, no traceback); 3 a fault
 of the machine (disk full, read-only, out of memory; nothing lost); 1 a fault of the program;
-130 interrupted (run the same command again to resume). See `workflow.faults`.
+130 interrupted (run the same command again to resume). See `workflow.commands`.
 """
 
 from __future__ import annotations
@@ -160,7 +160,7 @@ def main(argv: list[str] | None = None) -> int:
         print(f"strataweave {args.verb}: interrupted; run the same command again to resume", file=sys.stderr)
         return 130
     except Exception as fault:
-        from strataweave.workflow.faults import known_fault
+        from strataweave.workflow.commands import known_fault
 
         known = known_fault(fault)
         if known is not None:  # bad input, a bad path or a fault of the machine

@@ -29,7 +29,7 @@ from joblib.externals.loky.process_executor import TerminatedWorkerError
 
 from strataweave.cli import main
 from strataweave.subtypes.tasks import ResampleFit, fit_resample
-from strataweave.workflow.resample_checkpoint import ResampleCheckpoint
+from strataweave.workflow.cache import ResampleCheckpoint
 from workflow_files import write_synthetic_inputs
 
 TABLES = ["assignments.tsv", "rank_selection.tsv", "survival.tsv", "clinical.tsv", "results.json"]

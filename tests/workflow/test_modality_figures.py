@@ -7,8 +7,8 @@ import pandas as pd
 import pytest
 
 from strataweave.factorize import JointNMF
-from strataweave.workflow.grouping import ReportedGrouping
-from strataweave.workflow.modality_figures import factor_arrays, modality_map_arrays, volcano_arrays
+from strataweave.workflow.stages import ReportedGrouping
+from strataweave.workflow.outputs import factor_arrays, modality_map_arrays, volcano_arrays
 
 NAMES = ["S1", "S2", "S3"]
 

@@ -6,7 +6,7 @@ import json
 import os
 
 from strataweave.cli import main
-from strataweave.workflow.assign import check_table_out
+from strataweave.workflow.commands import check_table_out
 from strataweave.workflow.run_folder import RUN_FORMAT, prepare_run_folder, run_lock, start_staging
 
 

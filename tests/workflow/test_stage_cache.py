@@ -8,9 +8,7 @@ import pytest
 import scipy.sparse as sp
 
 from strataweave.files import write_table
-from strataweave.workflow.cache import StageCache, stage_key
-from strataweave.workflow.codec import decode, encode
-from strataweave.workflow.pipeline import Pipeline, Stage
+from strataweave.workflow.cache import Pipeline, Stage, StageCache, decode, encode, stage_key
 
 
 def _mixed_result() -> dict:

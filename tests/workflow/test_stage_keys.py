@@ -5,10 +5,9 @@ from __future__ import annotations
 import dataclasses
 from pathlib import Path
 
-from strataweave.workflow.cache import StageCache
+from strataweave.workflow.cache import Pipeline, StageCache
 from strataweave.workflow.config import load_workflow
-from strataweave.workflow.manifest import input_hashes
-from strataweave.workflow.pipeline import Pipeline
+from strataweave.workflow.run_folder import input_hashes
 from strataweave.workflow.progress import QUIET, Feedback
 from strataweave.seeding import run_seeds
 from strataweave.workflow.stages import build_stages

@@ -8,8 +8,7 @@ from pathlib import Path
 import pytest
 
 from strataweave import InputError
-from strataweave.workflow.config import load_workflow, parse_workflow
-from strataweave.workflow.settings import SECTIONS, ModalitySettings
+from strataweave.workflow.config import SECTIONS, ModalitySettings, load_workflow, parse_workflow
 
 from workflow_files import MINIMAL
 
@@ -109,7 +108,7 @@ def test_workflow_defaults_are_the_numeric_layers_defaults() -> None:
     from strataweave.evaluate import associate_clinical, evaluate_survival
     from strataweave.factorize import JointNMF
     from strataweave.graph import fuse_modalities
-    from strataweave.workflow.settings import EvaluationSettings, FactorizationSettings, GraphSettings
+    from strataweave.workflow.config import EvaluationSettings, FactorizationSettings, GraphSettings
 
     pairs = [
         (GraphSettings, "neighbours", fuse_modalities, "n_neighbours"),

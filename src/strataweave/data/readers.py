@@ -1,9 +1,10 @@
-"""Readers for the clinical table and for one omics matrix, validated and turned to patients x features."""
+"""Readers for the clinical table, a grouping and one omics matrix, validated and turned to patients x features."""
 
 from __future__ import annotations
 
 from collections.abc import Iterable
 from dataclasses import dataclass
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
@@ -12,6 +13,7 @@ from strataweave.data.annotated import is_annotated, read_annotated_matrix, read
 from strataweave.data.cells import MISSING_TOKENS, TableText, quick_numbers, read_cells, read_table, split_cells
 from strataweave.data.positions import TablePositions, input_error, shown
 from strataweave.data.validation import check_identifiers, check_kind, check_values, parse_numbers
+from strataweave.errors import InputError
 
 ORIENTATIONS = ("features_in_rows", "samples_in_rows")
 
@@ -52,6 +54,28 @@ def _clinical_column(cells: np.ndarray) -> np.ndarray:
     if not (numbers.isna() & ~missing).any():
         return numbers.to_numpy(dtype=np.float64)
     return text.where(~missing, None).to_numpy(dtype=object)
+
+
+def read_groups(path: str | Path) -> pd.Series:
+    """Group label (text) per patient ID; rows with an empty group are left out."""
+    table = read_cells(path)
+    source = table.source
+    if table.header.size < 2:
+        raise InputError(f"{source}: header has {table.header.size} column(s), expected patient ID then group")
+    ids = pd.Index([str(cell).strip() for cell in table.body[:, 0]], name="patient_id")
+    labels = pd.Series([str(cell).strip() for cell in table.body[:, 1]], index=ids, name=str(table.header[1]).strip())
+    empty_id = ids == ""
+    if empty_id.any():
+        line = table.first_line + int(empty_id.argmax())
+        raise InputError(f"{source}: line {line}, column 1: found an empty patient ID, expected an identifier")
+    repeated = ids.duplicated()
+    if repeated.any():
+        line = table.first_line + int(repeated.argmax())
+        raise InputError(f"{source}: line {line}, column 1: found patient {ids[repeated][0]!r} again, expected each once")
+    labels = labels[labels != ""]
+    if labels.nunique() < 2:
+        raise InputError(f"{source}: column 2: found {labels.nunique()} distinct group(s), expected at least 2")
+    return labels
 
 
 def read_matrix(

@@ -1,32 +1,404 @@
-"""Read a TOML workflow file into a validated, immutable `Workflow`.
+"""The workflow file: read a TOML workflow into a validated, immutable `Workflow`.
 
 Strict on purpose: an unknown key is an error (a typo must not pass silently), every
 error is one `InputError` line naming the file and the key, relative paths resolve
 against the workflow file's folder, and everything not given takes its default.
+
+Sections, in the order they build on each other:
+- value rules: each accepts a TOML value or says what it expected;
+- the sections of the file: one frozen dataclass per section, one field per key (the field
+  name is the TOML key, its rule sits in `metadata["rule"]`, a field without a default is
+  required), so a key exists in exactly one place;
+- the `Workflow` and the parser that reads the sections' definitions.
 """
 
 from __future__ import annotations
 
 import dataclasses
+import inspect
+import re
 import tomllib
-from dataclasses import dataclass, fields
+from dataclasses import dataclass, field, fields
 from pathlib import Path
+from typing import Callable
 
+from strataweave.data import Preprocessor
+from strataweave.data.assembly import ANALYSIS_DEFAULTS
+from strataweave.data.filters import RANKINGS
+from strataweave.data.imputation import IMPUTERS
+from strataweave.data.normalise import LIBRARY_SIZES
+from strataweave.data.readers import ORIENTATIONS
+from strataweave.data.scaling import NON_NEGATIVITY, SCALINGS
+from strataweave.data.validation import KINDS
 from strataweave.errors import InputError
-from strataweave.workflow import rules
-from strataweave.workflow.settings import (
-    SECTIONS,
-    CohortSettings,
-    EvaluationSettings,
-    FactorizationSettings,
-    GraphSettings,
-    ModalitySettings,
-    ReportSettings,
-    ResamplingSettings,
-    SubtypeSettings,
-)
+from strataweave.evaluate import associate_clinical, enrich_markers, evaluate_survival, find_markers
+from strataweave.evaluate.markers import TESTS
+from strataweave.factorize import JointNMF
+from strataweave.factorize.joint_nmf import INIT_METHODS
+from strataweave.graph import fuse_modalities
+from strataweave.graph.kernels import KERNELS
+from strataweave.graph.metrics import METRICS
+from strataweave.graph.rules import RULES
+from strataweave.subtypes.parallel import BACKENDS
+from strataweave.subtypes.settings import LABELS_FROM, START_FROM, SweepSettings
 
-TOP_LEVEL_RULES = {"seed": rules.integer(0, 2**32 - 1)}
+# ---------------------------------------------------------------------------------------------
+# Value rules: a rule is a callable `rule(value, base_dir) -> converted value` that raises
+# `RuleBroken(expected)` when the value does not fit; the parser turns that into one
+# `InputError` line naming the key.
+# ---------------------------------------------------------------------------------------------
+
+Rule = Callable[[object, Path], object]
+
+
+class RuleBroken(Exception):
+    """A value does not fit its rule; the argument says what was expected."""
+
+
+def _is_integer(value: object) -> bool:
+    return isinstance(value, int) and not isinstance(value, bool)
+
+
+def _is_number(value: object) -> bool:
+    return isinstance(value, (int, float)) and not isinstance(value, bool)
+
+
+def _bound(value: float) -> str:
+    """A bound as a reader expects it: integers in full (no 4.29497e+09), other numbers short."""
+    return str(value) if _is_integer(value) else f"{value:g}"
+
+
+def _bounds_text(minimum: float | None, maximum: float | None, above: float | None) -> str:
+    parts = []
+    if above is not None:
+        parts.append(f"> {_bound(above)}")
+    if minimum is not None:
+        parts.append(f">= {_bound(minimum)}")
+    if maximum is not None:
+        parts.append(f"<= {_bound(maximum)}")
+    return (" " + " and ".join(parts)) if parts else ""
+
+
+def _within(value: float, minimum: float | None, maximum: float | None, above: float | None) -> bool:
+    return (
+        (minimum is None or value >= minimum)
+        and (maximum is None or value <= maximum)
+        and (above is None or value > above)
+    )
+
+
+def integer(minimum: int | None = None, maximum: int | None = None) -> Rule:
+    """A whole number within the bounds."""
+    expected = "an integer" + _bounds_text(minimum, maximum, None)
+
+    def rule(value: object, base_dir: Path) -> int:
+        if not _is_integer(value) or not _within(value, minimum, maximum, None):
+            raise RuleBroken(expected)
+        return int(value)
+
+    return rule
+
+
+def number(minimum: float | None = None, maximum: float | None = None, above: float | None = None) -> Rule:
+    """A real number within the bounds (integers accepted)."""
+    expected = "a number" + _bounds_text(minimum, maximum, above)
+
+    def rule(value: object, base_dir: Path) -> float:
+        if not _is_number(value) or not _within(float(value), minimum, maximum, above):
+            raise RuleBroken(expected)
+        return float(value)
+
+    return rule
+
+
+def text(pattern: str | None = None, describe: str = "a text string") -> Rule:
+    """A non-empty string, optionally matching a full regular expression."""
+    compiled = re.compile(pattern) if pattern else None
+
+    def rule(value: object, base_dir: Path) -> str:
+        if not isinstance(value, str) or not value.strip():
+            raise RuleBroken(describe)
+        if compiled is not None and not compiled.fullmatch(value):
+            raise RuleBroken(describe)
+        return value
+
+    return rule
+
+
+def choice(*options: str) -> Rule:
+    """One of the listed words."""
+    expected = "one of " + ", ".join(repr(o) for o in options)
+
+    def rule(value: object, base_dir: Path) -> str:
+        if value not in options:
+            raise RuleBroken(expected)
+        return str(value)
+
+    return rule
+
+
+def flag() -> Rule:
+    """true or false."""
+
+    def rule(value: object, base_dir: Path) -> bool:
+        if not isinstance(value, bool):
+            raise RuleBroken("true or false")
+        return value
+
+    return rule
+
+
+def list_of(item: Rule, describe: str, allow_single: bool = False, unique: bool = True) -> Rule:
+    """A list whose items all follow `item` (a single value too if `allow_single`), as a tuple."""
+
+    def rule(value: object, base_dir: Path) -> tuple:
+        values = [value] if allow_single and not isinstance(value, list) else value
+        if not isinstance(values, list):
+            raise RuleBroken(describe)
+        try:
+            converted = tuple(item(v, base_dir) for v in values)
+        except RuleBroken:
+            raise RuleBroken(describe) from None
+        if unique and len(set(converted)) != len(converted):
+            raise RuleBroken(describe + " without repeats")
+        return converted
+
+    return rule
+
+
+def either(first: Rule, second: Rule, describe: str) -> Rule:
+    """A value that fits `first`, else `second`."""
+
+    def rule(value: object, base_dir: Path) -> object:
+        for candidate in (first, second):
+            try:
+                return candidate(value, base_dir)
+            except RuleBroken:
+                continue
+        raise RuleBroken(describe)
+
+    return rule
+
+
+def existing_file() -> Rule:
+    """A path to an existing file, relative paths taken against the workflow file's folder."""
+
+    def rule(value: object, base_dir: Path) -> Path:
+        if not isinstance(value, str) or not value.strip():
+            raise RuleBroken("a file path as a text string")
+        path = Path(value).expanduser()
+        resolved = (path if path.is_absolute() else base_dir / path).resolve()
+        if not resolved.is_file():
+            raise RuleBroken(f"an existing file (looked for {resolved})")
+        return resolved
+
+    return rule
+
+
+# ---------------------------------------------------------------------------------------------
+# The sections of a workflow file
+# ---------------------------------------------------------------------------------------------
+
+SAFE_NAME = r"[A-Za-z0-9][A-Za-z0-9_.-]*"
+
+
+def default_of(function, parameter: str) -> object:
+    """The default of a numeric layer's parameter, so the workflow and the layer never disagree."""
+    return inspect.signature(function).parameters[parameter].default
+
+
+def key(rule: Rule, *default: object, doc: str = "") -> object:
+    """A dataclass field for one workflow key; no default means the key is required."""
+    meta = {"rule": rule, "doc": doc}
+    if default:
+        return field(default=default[0], metadata=meta)
+    return field(metadata=meta)
+
+
+@dataclass(frozen=True)
+class CohortSettings:
+    """[cohort]: the clinical table and its survival columns."""
+
+    clinical: Path = key(existing_file(), doc="clinical table, one row per patient")
+    id_column: str = key(text(), "patient_id", doc="column with the patient identifiers")
+    time_column: str | None = key(text(), None, doc="survival time column")
+    event_column: str | None = key(text(), None, doc="event column: 1 = event, 0 = censored")
+    time_unit: str | None = key(text(), None, doc="unit of the survival time, for axis labels")
+
+
+PREPROCESSING = {name: default_of(Preprocessor, name) for name in inspect.signature(Preprocessor).parameters}
+
+
+@dataclass(frozen=True)
+class ModalitySettings:
+    """[[modality]]: one omics layer, how to read it, how to normalise and filter it, its weight.
+
+    The preprocessing keys are those of `strataweave.data.Preprocessor`.
+    """
+
+    name: str = key(text(SAFE_NAME, "a name of letters, digits, '_', '.', '-'"))
+    path: Path = key(existing_file())
+    kind: str = key(choice(*KINDS))
+    orientation: str | None = key(choice(*ORIENTATIONS), None, doc="omitted = detect")
+    weight: float = key(number(above=0), 1.0, doc="relative weight in the factorisation")
+    prior_count: float = key(number(above=0), PREPROCESSING["prior_count"], doc="counts: added before log2 CPM")
+    library_size: str = key(
+        choice(*LIBRARY_SIZES), PREPROCESSING["library_size"],
+        doc="counts: median_ratio (robust to a few dominant features) or total",
+    )
+    beta_to_m: bool = key(flag(), PREPROCESSING["beta_to_m"], doc="beta: use M-values")
+    quantile_normalise: bool = key(flag(), PREPROCESSING["quantile_normalise"])
+    max_missing_fraction: float = key(
+        number(0, 1), PREPROCESSING["max_missing_fraction"], doc="drop features missing in more patients"
+    )
+    min_variance: float = key(number(minimum=0), PREPROCESSING["min_variance"])
+    top_features: int = key(
+        integer(1), ANALYSIS_DEFAULTS["top_features"],
+        doc="keep this many features, ranked by rank_by (an analysis caps what NMF sees)",
+    )
+    rank_by: str = key(choice(*RANKINGS), PREPROCESSING["rank_by"])
+    impute: str = key(choice(*IMPUTERS), PREPROCESSING["impute"])
+    impute_neighbours: int = key(integer(1), PREPROCESSING["impute_neighbours"])
+    scale: str = key(choice(*SCALINGS), PREPROCESSING["scale"])
+    non_negative: str = key(
+        choice(*NON_NEGATIVITY), ANALYSIS_DEFAULTS["non_negative"],
+        doc="how the NMF gets non-negative data; split keeps the sign of scaled data without an offset "
+        "(an analysis always needs one, unlike Preprocessor's default 'none')",
+    )
+
+    def preprocessing(self) -> dict:
+        """Keyword arguments of `Preprocessor` (all but name, path, orientation and weight)."""
+        skipped = {"name", "path", "orientation", "weight"}
+        return {f.name: getattr(self, f.name) for f in fields(self) if f.name not in skipped}
+
+
+@dataclass(frozen=True)
+class GraphSettings:
+    """[graph]: per-modality patient-similarity graphs and the rule that fuses them."""
+
+    neighbours: int = key(integer(2), default_of(fuse_modalities, "n_neighbours"))
+    metric: str = key(choice(*METRICS), default_of(fuse_modalities, "metric"))
+    kernel: str = key(choice(*KERNELS), default_of(fuse_modalities, "kernel"))
+    fusion: str = key(choice(*RULES), default_of(fuse_modalities, "rule"))
+    quorum: int | None = key(integer(1), None, doc="modalities that must agree (fusion = quorum)")
+
+
+@dataclass(frozen=True)
+class FactorizationSettings:
+    """[factorization]: the graph-regularised joint NMF."""
+
+    graph_weight: float = key(number(minimum=0), default_of(JointNMF, "graph_weight"))
+    restarts: int = key(
+        integer(1), SweepSettings.resample_restarts,
+        doc="full-data fits per count, the lowest objective wins; as many as each resample has",
+    )
+    max_iter: int = key(integer(1), default_of(JointNMF, "max_iter"))
+    tolerance: float = key(number(above=0), default_of(JointNMF, "tol"))
+    init: str = key(choice(*INIT_METHODS), default_of(JointNMF, "init"))
+    start_from: str = key(
+        choice(*START_FROM), SweepSettings.start_from,
+        doc="graph: start each fit from the spectral partition of its fused graph; init: from `init`",
+    )
+
+
+@dataclass(frozen=True)
+class SubtypeSettings:
+    """[subtypes]: the counts to try and which one to use."""
+
+    counts: tuple[int, ...] = key(
+        list_of(integer(2), "an integer >= 2 or a list of them", allow_single=True),
+        (2, 3, 4, 5, 6),
+    )
+    use_count: int | str = key(
+        either(choice("recommended"), integer(2), "'recommended' or an integer >= 2"),
+        "recommended",
+    )
+    min_size: int | None = key(
+        integer(1), SweepSettings.min_size,
+        doc="never recommend a count with a smaller subtype (default: 2 % of the patients, at least 5)",
+    )
+    pac_window: tuple[float, ...] = key(
+        list_of(number(0, 1), "two numbers between 0 and 1, lower first"), SweepSettings.pac_window
+    )
+    pac_tolerance: float = key(number(minimum=0), SweepSettings.pac_tolerance, doc="PAC differences below this are ties")
+    core_threshold: float = key(number(0, 1), SweepSettings.core_threshold, doc="mean consensus with the own subtype")
+    labels_from: str = key(
+        choice(*LABELS_FROM), SweepSettings.labels_from,
+        doc="best_fit: the candidate partition with the highest modularity on the fused graph; or one candidate",
+    )
+
+
+@dataclass(frozen=True)
+class ResamplingSettings:
+    """[resampling]: the consensus resamples and where they run."""
+
+    resamples: int = key(integer(2), SweepSettings.n_resamples)
+    fraction: float = key(number(maximum=1, above=0), SweepSettings.fraction, doc="share of patients per resample")
+    feature_fraction: float = key(number(maximum=1, above=0), SweepSettings.feature_fraction, doc="share of features per resample")
+    restarts: int = key(integer(1), SweepSettings.resample_restarts, doc="NMF restarts per resample")
+    warm_start: bool = key(flag(), SweepSettings.warm_start, doc="start resamples from the full-data factors")
+    backend: str = key(choice(*BACKENDS), "processes", doc="results are the same on each")
+    jobs: int = key(integer(0), 0, doc="workers; 0 = every core this process may use")
+    scheduler: str | None = key(text(), None, doc="Dask scheduler address (backend = dask)")
+
+
+@dataclass(frozen=True)
+class EvaluationSettings:
+    """[evaluation]: survival, clinical association, markers and enrichment."""
+
+    covariates: tuple[str, ...] = key(list_of(text(), "a list of column names"), ())
+    strata: str | None = key(text(), None, doc="clinical column for a stratified log-rank test")
+    clinical_columns: tuple[str, ...] | None = key(
+        list_of(text(), "a list of column names"), None, doc="omitted = all other columns"
+    )
+    categorical_columns: tuple[str, ...] = key(
+        list_of(text(), "a list of column names"), (), doc="numeric columns to treat as categories"
+    )
+    monte_carlo: int = key(
+        integer(100), default_of(associate_clinical, "n_monte_carlo"), doc="draws for exact p-values of sparse tables"
+    )
+    rmst_horizon: float | None = key(number(above=0), None)
+    permutations: int = key(integer(0), default_of(evaluate_survival, "n_permutations"))
+    min_group_size: int = key(integer(1), default_of(evaluate_survival, "min_group_size"))
+    marker_test: str = key(choice(*TESTS), default_of(find_markers, "test"))
+    marker_fdr: float = key(number(maximum=1, above=0), default_of(find_markers, "fdr"))
+    markers_per_subtype: int = key(integer(1), default_of(find_markers, "top_n"))
+    gene_sets: Path | None = key(existing_file(), None)
+    gene_set_format: str = key(choice("lines", "table"), "lines", doc="set, description, members / set, gene")
+    gene_set_modality: str | None = key(text(), None, doc="modality whose markers are tested; omitted = first")
+    sets_per_subtype: int = key(integer(1), default_of(enrich_markers, "top_n"))
+    min_set_size: int = key(integer(1), default_of(enrich_markers, "min_size"))
+    max_set_size: int = key(integer(1), default_of(enrich_markers, "max_size"))
+
+
+@dataclass(frozen=True)
+class ReportSettings:
+    """[report]: what the report looks like and what it may show."""
+
+    title: str = key(text(), "Patient subtypes")
+    formats: tuple[str, ...] = key(
+        list_of(choice("html", "pdf"), "a list of 'html' and/or 'pdf'"), ("html", "pdf"),
+        doc="[] = tables and results.json only, no figures or report",
+    )
+    show_patient_ids: bool = key(flag(), False)
+
+
+SECTIONS = {
+    "cohort": CohortSettings,
+    "graph": GraphSettings,
+    "factorization": FactorizationSettings,
+    "subtypes": SubtypeSettings,
+    "resampling": ResamplingSettings,
+    "evaluation": EvaluationSettings,
+    "report": ReportSettings,
+}
+
+
+# ---------------------------------------------------------------------------------------------
+# The workflow and its parser
+# ---------------------------------------------------------------------------------------------
+
+TOP_LEVEL_RULES = {"seed": integer(0, 2**32 - 1)}
 
 
 @dataclass(frozen=True)
@@ -94,7 +466,7 @@ def _parse_section(table: object, cls: type, where: str, source: str, base_dir: 
             continue
         try:
             values[name] = spec.metadata["rule"](table[name], base_dir)
-        except rules.RuleBroken as broken:
+        except RuleBroken as broken:
             raise InputError(
                 f"{source}: key '{where}.{name}': found {_found(table[name])}, expected {broken}"
             ) from None
@@ -105,14 +477,14 @@ def _parse_modalities(raw: object, source: str, base_dir: Path) -> tuple[Modalit
     if not isinstance(raw, list) or not all(isinstance(item, dict) for item in raw):
         raise InputError(f"{source}: key 'modality': found {_found(raw)}, expected [[modality]] tables")
     modalities = []
-    for number, table in enumerate(raw, start=1):
+    for position, table in enumerate(raw, start=1):
         name = table.get("name")
-        label = f"modality[{name}]" if isinstance(name, str) and name.strip() else f"modality[{number}]"
+        label = f"modality[{name}]" if isinstance(name, str) and name.strip() else f"modality[{position}]"
         modalities.append(_parse_section(table, ModalitySettings, label, source, base_dir))
     names = [m.name for m in modalities]
-    for number, name in enumerate(names, start=1):
-        if names.index(name) != number - 1:
-            raise InputError(f"{source}: key 'modality[{number}].name': found {name!r} again, expected unique names")
+    for position, name in enumerate(names, start=1):
+        if names.index(name) != position - 1:
+            raise InputError(f"{source}: key 'modality[{position}].name': found {name!r} again, expected unique names")
     return tuple(modalities)
 
 
@@ -170,7 +542,7 @@ def parse_workflow(text: str, source: Path, require_modalities: bool = True) -> 
     if "seed" in document:
         try:
             seed = TOP_LEVEL_RULES["seed"](document["seed"], base_dir)
-        except rules.RuleBroken as broken:
+        except RuleBroken as broken:
             raise InputError(f"{label}: key 'seed': found {_found(document['seed'])}, expected {broken}") from None
     modalities = _parse_modalities(document.get("modality", []), label, base_dir)
     if require_modalities and not modalities:

@@ -4,21 +4,37 @@ A folder is a run folder when its `manifest.json` carries our format marker. The
 says whether the run finished. A run is built in a hidden sibling folder that is renamed
 into place only when it finishes; an interrupted one stays there and is resumed by running
 the same command again.
+
+Sections: the folder and its life (staging, lock, publishing, finished runs, new files
+beside them), what `manifest.json` records, and `warnings.log`.
 """
 
 from __future__ import annotations
 
 import fcntl
+import hashlib
 import json
 import os
+import platform
 import shutil
+import sys
+import warnings
+from collections import Counter
+from collections.abc import Callable, Iterator
 from contextlib import contextmanager
 from datetime import datetime, timezone
+from importlib import metadata
 from pathlib import Path
-from typing import Callable, Iterator
 
+from strataweave import __version__
+from strataweave.caution import CAUTION
 from strataweave.errors import InputError
-from strataweave.files import atomic_write_text
+from strataweave.files import atomic_write_text, sha256_file
+from strataweave.workflow.config import Workflow
+
+# ---------------------------------------------------------------------------------------------
+# The folder and its life
+# ---------------------------------------------------------------------------------------------
 
 RUN_FORMAT = "strataweave run folder"
 MANIFEST = "manifest.json"
@@ -111,6 +127,11 @@ def seed_cache(staging: RunFolder, out: Path) -> None:
     staging.stages.mkdir(exist_ok=True)
 
 
+def now_text() -> str:
+    """The time now (UTC, to the second) as ISO 8601 text."""
+    return datetime.now(timezone.utc).isoformat(timespec="seconds")
+
+
 @contextmanager
 def run_lock(folder: RunFolder, notice: Callable[[str], None]) -> Iterator[None]:
     """Hold an OS lock on `folder` (PID and start time in its lock file); refuse if another process holds it."""
@@ -127,7 +148,7 @@ def run_lock(folder: RunFolder, notice: Callable[[str], None]) -> Iterator[None]
         if earlier:
             notice(f"{folder.path}: taking over the lock of {earlier}, which is no longer running")
         handle.truncate(0)
-        handle.write(f"PID {os.getpid()} started {datetime.now(timezone.utc).isoformat(timespec='seconds')}\n")
+        handle.write(f"PID {os.getpid()} started {now_text()}\n")
         handle.flush()
         try:
             yield
@@ -177,3 +198,98 @@ def check_new_file(path: str | Path, inputs: list[str | Path], force: bool = Fal
         raise InputError(f"{path}: is a folder, expected a file path for --out")
     if target.exists() and not force:
         raise InputError(f"{path}: already exists, expected a new file (or pass --force to replace it)")
+
+
+# ---------------------------------------------------------------------------------------------
+# What `manifest.json` records: versions, platform, the workflow text, input hashes, seeds, stages.
+# ---------------------------------------------------------------------------------------------
+
+PACKAGES = (
+    "numpy", "scipy", "scikit-learn", "pandas", "lifelines", "statsmodels",
+    "matplotlib", "joblib", "tqdm", "jinja2", "threadpoolctl", "dask", "distributed", "pyarrow",
+)
+
+
+def package_versions() -> dict[str, str]:
+    """Installed versions of the libraries a run may use ('not installed' where absent)."""
+    versions = {"strataweave": __version__}
+    for name in PACKAGES:
+        try:
+            versions[name] = metadata.version(name)
+        except metadata.PackageNotFoundError:
+            versions[name] = "not installed"
+    return versions
+
+
+def input_hashes(flow: Workflow) -> dict[str, str]:
+    """sha256 of every input file the workflow names, by label (clinical, modality:<name>, ...)."""
+    return {label: sha256_file(path) for label, path in flow.input_files().items()}
+
+
+def new_manifest(flow: Workflow, verb: str, argv: list[str], hashes: dict[str, str], seeds: dict[str, int]) -> dict:
+    """The manifest of a run that is starting: status 'running', no stages yet.
+
+    `hashes` are the input sha256 by label (see `input_hashes`); the manifest keys them by path.
+    """
+    paths = flow.input_files()
+    return {
+        "format": RUN_FORMAT,
+        "status": "running",
+        "caution": CAUTION,
+        "verb": verb,
+        "command": list(argv),
+        "created": now_text(),
+        "finished": None,
+        "strataweave_version": __version__,
+        "python": sys.version.split()[0],
+        "platform": platform.platform(),
+        "packages": package_versions(),
+        "workflow": {
+            "path": str(flow.source),
+            "sha256": hashlib.sha256(flow.text.encode("utf-8")).hexdigest(),
+            "text": flow.text,
+        },
+        "inputs": {str(paths[label]): digest for label, digest in hashes.items()},
+        "seed": flow.seed,
+        "seeds": seeds,
+        "stages": {},
+    }
+
+
+# ---------------------------------------------------------------------------------------------
+# Warnings of the libraries a run uses, kept out of the terminal: counted, written to warnings.log.
+#
+# NumPy, scikit-learn, pandas and friends warn about things a user of the run cannot act on
+# while the bars are drawn (a division by zero in a filtered-out feature, a fit that stopped
+# at its iteration limit). A run collects them, writes one line per distinct warning with how
+# often it came to `warnings.log` in the run folder, and says so in one line at the end.
+# ---------------------------------------------------------------------------------------------
+
+LOG = "warnings.log"
+
+
+@contextmanager
+def collected_warnings() -> Iterator[Counter]:
+    """Every warning raised inside the block, counted by (category, message, where), none shown."""
+    counts: Counter = Counter()
+
+    def count(message, category, filename, lineno, file=None, line=None) -> None:
+        counts[(category.__name__, " ".join(str(message).split()), f"{filename}:{lineno}")] += 1
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("always")
+        warnings.showwarning = count
+        yield counts
+
+
+def write_warnings_log(folder: Path, counts: Counter) -> str | None:
+    """`folder`/warnings.log, most frequent first, and the line that tells of it; None when nothing warned."""
+    if not counts:
+        return None
+    lines = [f"# {CAUTION}", "# count\tcategory\tmessage\twhere"]
+    lines += [f"{n}\t{category}\t{message}\t{where}" for (category, message, where), n in counts.most_common()]
+    atomic_write_text(Path(folder) / LOG, "\n".join(lines) + "\n")
+    kinds = Counter(category for category, _, _ in counts.elements())
+    named = ", ".join(f"{n} {category}" for category, n in kinds.most_common())
+    total = sum(counts.values())
+    return f"{total} library warning{'' if total == 1 else 's'} ({named}) written to {LOG}, not shown"

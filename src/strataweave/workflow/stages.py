@@ -1,35 +1,634 @@
-"""The stages of a run and what each one's cache key covers.
+"""The stages of a run: what each one computes and what its cache key covers.
 
 run:      load -> prepare -> graphs -> sweep -> select -> final_fit -> evaluate
 evaluate: load -> prepare (only with modalities) -> evaluate (of the grouping given)
 
-A stage's parameters hold exactly the settings its result depends on: where the resamples
-run (backend, jobs, scheduler) is left out because the results do not depend on it, and
-input files enter by their sha256, not their path.
+Each stage turns the results of the stages it reads into plain containers (dicts of
+pandas, numpy and scipy objects) that the stage cache stores without pickle; the numeric
+layers do the work. A stage's parameters hold exactly the settings its result depends on:
+where the resamples run (backend, jobs, scheduler) is left out because the results do not
+depend on it, and input files enter by their sha256, not their path.
+
+Sections: load, prepare, graphs, sweep / select / final fit, the grouping a run reports,
+evaluate, and last the list of stages.
 """
 
 from __future__ import annotations
 
 import dataclasses
+from dataclasses import dataclass, replace
+from pathlib import Path
 
+import numpy as np
 import pandas as pd
+import scipy.sparse as sp
+from scipy.sparse.csgraph import connected_components
 
+from strataweave.data.assembly import cohort_from_tables
+from strataweave.data.cohort import Cohort
+from strataweave.data.qc import applied_filters, qc_summary
+from strataweave.data.readers import read_clinical, read_matrix
+from strataweave.errors import InputError
+from strataweave.evaluate.clinical import associate_clinical
+from strataweave.evaluate.enrichment import enrich_markers, set_membership
+from strataweave.evaluate.gene_sets import read_gene_set_lines, read_gene_set_table
+from strataweave.evaluate.grouping import group_order
+from strataweave.evaluate.markers import markers_by_modality, untestable_modality
+from strataweave.evaluate.outcome import read_outcome
+from strataweave.evaluate.survival import evaluate_survival, untestable_outcome
+from strataweave.factorize import JointNMF
+from strataweave.factorize.views import relative_modality_weights
+from strataweave.graph import fuse_modalities, graph_diagnostics, modality_agreement, spectral_embedding
+from strataweave.seeding import child_seeds
+from strataweave.subtypes.parallel import ParallelSettings, available_cores
+from strataweave.subtypes.projection import placement, project_patients
+from strataweave.subtypes.recommend import Recommendation
+from strataweave.subtypes.result import SweepResult, subtype_labels, subtype_names
+from strataweave.subtypes.settings import SweepSettings
+from strataweave.subtypes.sweep import planned_tasks, sweep_subtype_counts
+from strataweave.workflow.cache import WORK, ResampleCheckpoint, Stage
 from strataweave.workflow.config import Workflow
-from strataweave.workflow.evaluating import EVALUATION_LAYOUT, evaluate_grouping
-from strataweave.workflow.graphing import build_graph
-from strataweave.workflow.grouping import analysis_patients, given_grouping
-from strataweave.workflow.loading import load_inputs
-from strataweave.workflow.pipeline import WORK, Stage
-from strataweave.workflow.preparing import RESULT_LAYOUT, prepare_cohort
 from strataweave.workflow.progress import Feedback
-from strataweave.workflow.sweeping import (
-    final_fit,
-    final_labels,
-    run_sweep,
-    select_count,
-    sweep_settings,
-)
 
+# ---------------------------------------------------------------------------------------------
+# The load stage: read the clinical table and every modality file, and check the columns named.
+# ---------------------------------------------------------------------------------------------
+
+def check_columns(flow: Workflow, clinical: pd.DataFrame) -> None:
+    """Every clinical column the workflow names must be in the clinical table, and the survival
+    columns must hold times and 0/1 events, so a bad cell stops the run before the sweep."""
+    named = {
+        "cohort.time_column": [flow.cohort.time_column],
+        "cohort.event_column": [flow.cohort.event_column],
+        "evaluation.covariates": list(flow.evaluation.covariates),
+        "evaluation.strata": [flow.evaluation.strata],
+        "evaluation.clinical_columns": list(flow.evaluation.clinical_columns or ()),
+        "evaluation.categorical_columns": list(flow.evaluation.categorical_columns),
+    }
+    for key, columns in named.items():
+        for column in columns:
+            if column is not None and column not in clinical.columns:
+                raise InputError(
+                    f"{flow.source.name}: key '{key}': found column {column!r}, expected a column of "
+                    f"{flow.cohort.clinical.name} ({', '.join(map(str, clinical.columns[:8]))})"
+                )
+    if flow.has_survival:
+        try:
+            read_outcome(clinical, flow.cohort.time_column, flow.cohort.event_column)
+        except InputError as problem:
+            raise InputError(f"{flow.cohort.clinical}: {problem}") from None
+
+
+def load_inputs(flow: Workflow) -> dict:
+    """Clinical table and raw matrices (patients x features), validated by the data layer."""
+    clinical = read_clinical(flow.cohort.clinical, flow.cohort.id_column)
+    raw = {
+        m.name: read_matrix(m.path, orientation=m.orientation, known_ids=clinical.index, name=m.name, kind=m.kind)
+        for m in flow.modalities
+    }
+    return {"clinical": clinical, "raw": raw}
+
+
+# ---------------------------------------------------------------------------------------------
+# The prepare stage: the data layer's Cohort of the workflow's modalities, kept as plain tables.
+#
+# Each modality is normalised, filtered, imputed and made non-negative by
+# `strataweave.data.prepare_modality`, fitted on the patients of the clinical table; the
+# `Cohort` then chooses the analysis patients (clinical IDs measured on at least one
+# modality, in clinical order), the presence table, the aligned views (all-NaN rows where a
+# modality is missing, which is how the factorisation is told about a missing modality) and
+# the table of modality patients left out (absent from the clinical table, or differing from
+# a clinical ID only in case: reported, never merged). The stage result holds these as
+# pandas objects so that the stage cache stays JSON + npz. The patient graph and the marker
+# tests read `normalised_views` instead: the same data before the sign split.
+# ---------------------------------------------------------------------------------------------
+
+#: Version of the prepare stage's result: part of its cache key, so that a run folder
+#: cached by an older layout is prepared again rather than read with missing entries.
+RESULT_LAYOUT = 3
+
+
+def build_cohort(flow: Workflow, loaded: dict) -> Cohort:
+    """The workflow's modalities prepared and aligned on the clinical table."""
+    modalities = {}
+    for modality in flow.modalities:
+        options = {key: value for key, value in modality.preprocessing().items() if key != "kind"}
+        modalities[modality.name] = (loaded["raw"][modality.name], modality.kind, options)
+    return cohort_from_tables(loaded["clinical"], modalities, sources={m.name: m.path.name for m in flow.modalities})
+
+
+def qc_rows(cohort: Cohort) -> list[dict]:
+    """One results.json row per modality: patients, features in the file, after each filter, used."""
+    summary = qc_summary(cohort)
+    return [
+        {
+            "name": modality.name,
+            "kind": modality.kind,
+            "patients": int(summary.at[modality.name, "patients"]),
+            "features_in_file": int(summary.at[modality.name, "features_input"]),
+            "filters": [{"step": step, "features_after": count} for step, count in applied_filters(modality)],
+            "features_used": int(summary.at[modality.name, "features_used"]),
+            "missing_fraction": float(summary.at[modality.name, "missing_fraction"]),
+        }
+        for modality in cohort.modalities
+    ]
+
+
+def prepare_cohort(flow: Workflow, loaded: dict) -> dict:
+    """The prepare stage's result: what the later stages and `assign` need, from the Cohort."""
+    cohort = build_cohort(flow, loaded)
+    unmatched = cohort.unmatched["modality"].value_counts()
+    preprocessors = {}
+    for modality in cohort.modalities:
+        state, arrays = modality.preprocessor.to_state()
+        preprocessors[modality.name] = {"state": state, "arrays": arrays}
+    return {
+        "patients": cohort.patients,
+        "views": {m.name: m.data for m in cohort.modalities},
+        "aligned_views": cohort.aligned_views(),
+        "normalised_views": cohort.normalised_views(),
+        "preprocessors": preprocessors,
+        "presence": cohort.presence,
+        "qc": qc_rows(cohort),
+        "unmatched": cohort.unmatched,
+        "dropped": {name: int(unmatched.get(name, 0)) for name in cohort.names},
+    }
+
+
+def normalised_views(prepared: dict) -> dict[str, pd.DataFrame]:
+    """Each modality on its normalised scale, one column per feature: for patient graphs and markers
+    (Cohort.normalised_views)."""
+    return prepared["normalised_views"]
+
+
+def aligned_views(prepared: dict) -> list[pd.DataFrame]:
+    """Every modality on the analysis patients, all-NaN rows where a patient lacks it (Cohort.aligned_views)."""
+    return prepared["aligned_views"]
+
+
+# ---------------------------------------------------------------------------------------------
+# The graphs stage: one patient graph per modality, fused by the workflow's rule, with diagnostics.
+# ---------------------------------------------------------------------------------------------
+
+#: The columns of the fusion-rule evidence written to results.json (per-modality shares stay in the graph).
+EVIDENCE_COLUMNS = ("rule", "quorum", "confirmed_share", "fallback_patients", "chosen")
+
+
+def build_graph(flow: Workflow, prepared: dict, feedback: Feedback) -> dict:
+    """The fused affinity on the analysis patients (their order), its diagnostics and a 2-D embedding."""
+    settings = flow.graph
+    views = normalised_views(prepared)
+    with feedback.bar("patient graphs", 2 * len(views)) as progress:
+        graph = fuse_modalities(
+            views,
+            rule=settings.fusion,
+            quorum=settings.quorum,
+            n_neighbours=settings.neighbours,
+            metric=settings.metric,
+            kernel=settings.kernel,
+            progress=progress,
+        )
+    graph = graph.restrict(prepared["patients"])
+    affinity = sp.csr_matrix(graph.affinity)
+    agreement = modality_agreement(graph)
+    names = list(agreement.index)
+    n_components, _ = connected_components(affinity, directed=False)
+    return {
+        "affinity": affinity,
+        "embedding": spectral_embedding(affinity, n_dims=2),
+        "summary": {
+            "rule": graph.rule,
+            "quorum": graph.parameters["quorum"],
+            "rule_requested": graph.parameters["rule_requested"],
+            "rule_evidence": graph.rule_evidence[list(EVIDENCE_COLUMNS)].to_dict(orient="records"),
+            "neighbours": settings.neighbours,
+            "isolated_patients": int(len(graph.isolated_patients)),
+            "fallback_patients": int(len(graph.fallback_patients)),
+            "components": int(n_components),
+            "agreement": [
+                {"modality_a": a, "modality_b": b, "overlap": _number(agreement.loc[a, b])}
+                for i, a in enumerate(names)
+                for b in names[i + 1:]
+            ],
+        },
+        "diagnostics": graph_diagnostics(graph).reset_index(),
+    }
+
+
+def _number(value: float) -> float | None:
+    return float(value) if np.isfinite(value) else None
+
+
+# ---------------------------------------------------------------------------------------------
+# The sweep, select and final-fit stages, and the cacheable record of a sweep.
+#
+# The sweep fits every count on all patients and on the resamples. Select applies the
+# recommendation rule, or the count the workflow fixes, without rerunning the sweep. The
+# final fit is the full-data fit of the sweep at the chosen count (fitted with the
+# workflow's factorisation settings), completed with what `assign` needs: the subtype
+# centres and the distance beyond which a new patient is far from every subtype.
+# ---------------------------------------------------------------------------------------------
+
+def factorization_options(flow: Workflow, prepared: dict) -> dict:
+    """JointNMF keyword arguments from the workflow (rank and seed are set per fit)."""
+    settings = flow.factorization
+    options = {
+        "graph_weight": settings.graph_weight,
+        "max_iter": settings.max_iter,
+        "tol": settings.tolerance,
+        "init": settings.init,
+        "n_restarts": settings.restarts,
+    }
+    weights = relative_modality_weights(list(prepared["views"].values()), [m.weight for m in flow.modalities])
+    if weights is not None:
+        options["modality_weights"] = weights
+    return options
+
+
+def sweep_settings(flow: Workflow) -> SweepSettings:
+    subtypes, resampling = flow.subtypes, flow.resampling
+    return SweepSettings(
+        n_resamples=resampling.resamples,
+        fraction=resampling.fraction,
+        feature_fraction=resampling.feature_fraction,
+        pac_window=tuple(subtypes.pac_window),
+        pac_tolerance=subtypes.pac_tolerance,
+        min_size=subtypes.min_size,
+        core_threshold=subtypes.core_threshold,
+        resample_restarts=resampling.restarts,
+        warm_start=resampling.warm_start,
+        start_from=flow.factorization.start_from,
+        labels_from=flow.subtypes.labels_from,
+    )
+
+
+def run_sweep(
+    flow: Workflow, prepared: dict, graphs: dict, seed: int, feedback: Feedback, work: Path | None = None
+) -> dict:
+    """Sweep the workflow's counts, each finished resample kept in `work` (if given) for a resumed
+    sweep; the result as a cacheable record (see `sweep_from_record`)."""
+    settings = sweep_settings(flow)
+    views = dict(zip(prepared["views"], aligned_views(prepared)))
+    profiles = {name: frame.reindex(prepared["patients"]) for name, frame in normalised_views(prepared).items()}
+    parallel = ParallelSettings(
+        backend=flow.resampling.backend, n_jobs=flow.resampling.jobs or available_cores(),
+        scheduler=flow.resampling.scheduler,
+        checkpoint=None if work is None else ResampleCheckpoint(work, feedback.say),
+    )
+    with feedback.bar("subtype count sweep", planned_tasks(flow.subtypes.counts, settings)) as progress:
+        result = sweep_subtype_counts(
+            views,
+            graphs["affinity"],
+            flow.subtypes.counts,
+            profiles=profiles,
+            settings=settings,
+            factorization=factorization_options(flow, prepared),
+            parallel=parallel,
+            random_state=seed,
+            progress=progress,
+        )
+    return sweep_record(result)
+
+
+def _model_record(model: JointNMF) -> dict:
+    state, arrays = model.to_state()
+    return {"state": state, "arrays": arrays, "patient_factor": model.patient_factor_}
+
+
+def model_from_record(record: dict) -> JointNMF:
+    model = JointNMF.from_state(record["state"], record["arrays"])
+    model.patient_factor_ = record["patient_factor"]
+    return model
+
+
+def sweep_record(result: SweepResult) -> dict:
+    """A SweepResult as plain containers the stage cache stores losslessly."""
+    return {
+        "patients": result.patients,
+        "counts": list(result.counts),
+        "criteria": result.criteria,
+        "consensus": result.consensus,
+        "consensus_patients": result.consensus_patients,
+        "assignments": result.assignments,
+        "resample_labels": result.resample_labels,
+        "baseline_labels": result.baseline_labels,
+        "baselines": result.baselines,
+        "partitions": result.partitions,
+        "flow": result.flow,
+        "models": {k: _model_record(model) for k, model in result.models.items()},
+        "recommendation": result.recommendation.to_dict(),
+        "settings": result.settings.to_dict(),
+        "unconverged": int(result.unconverged),
+    }
+
+
+def sweep_from_record(record: dict) -> SweepResult:
+    """The SweepResult that `sweep_record` stored."""
+    settings = dict(record["settings"])
+    settings["pac_window"] = tuple(settings["pac_window"])
+    return SweepResult(
+        patients=record["patients"],
+        counts=list(record["counts"]),
+        criteria=record["criteria"],
+        consensus=record["consensus"],
+        consensus_patients=record["consensus_patients"],
+        assignments=record["assignments"],
+        resample_labels=record["resample_labels"],
+        baseline_labels=record["baseline_labels"],
+        baselines=record["baselines"],
+        partitions=record["partitions"],
+        flow=record["flow"],
+        models={k: model_from_record(model) for k, model in record["models"].items()},
+        recommendation=Recommendation(**record["recommendation"]),
+        settings=SweepSettings(**settings),
+        unconverged=record["unconverged"],
+    )
+
+
+def select_count(flow: Workflow, sweep: dict) -> dict:
+    """The count to use: the rule's recommendation, or the workflow's `subtypes.use_count`."""
+    fixed = flow.subtypes.use_count if isinstance(flow.subtypes.use_count, int) else None
+    chosen = sweep_from_record(sweep).with_user_count(fixed)
+    return {"count": int(chosen.count), "user_count": fixed, "recommendation": chosen.recommendation.to_dict()}
+
+
+def chosen_sweep(sweep: dict, selected: dict) -> SweepResult:
+    """The sweep with the selected count's recommendation."""
+    result = sweep_from_record(sweep)
+    return replace(
+        result,
+        settings=replace(result.settings, user_count=selected["user_count"]),
+        recommendation=Recommendation(**selected["recommendation"]),
+    )
+
+
+def final_fit(prepared: dict, sweep: dict, selected: dict) -> dict:
+    """Model, labels and scores at the chosen count, with the subtype centres for new patients.
+
+    New patients get their patient factor by projection on the loadings (no graph), so the
+    centres and the far threshold are taken from the training patients projected the same
+    way: a training patient passed back through `assign` then meets the centres it helped make.
+    """
+    count = selected["count"]
+    model = sweep["models"][count]
+    assignments = sweep["assignments"][count]
+    labels = assignments["subtype"].to_numpy()
+    centres, far = placement(project_patients(model_from_record(model), aligned_views(prepared)), labels, count)
+    return {
+        "count": count,
+        "names": subtype_names(count),
+        "model": model,
+        "assignments": assignments,
+        "centres": centres,
+        "far_threshold": far,
+    }
+
+
+def final_labels(fitted: dict) -> pd.Series:
+    """Subtype names per patient (S1, S2, ...)."""
+    return subtype_labels(fitted["assignments"]["subtype"], fitted["count"])
+
+
+# ---------------------------------------------------------------------------------------------
+# The grouping a run reports: our subtypes (run) or the user's groups (evaluate), on one patient order.
+# ---------------------------------------------------------------------------------------------
+
+@dataclass(frozen=True)
+class ReportedGrouping:
+    """Patients in analysis order; group names (position = code); per-patient code, confidence, core."""
+
+    patients: pd.Index
+    names: list[str]
+    codes: np.ndarray
+    confidence: np.ndarray
+    core: np.ndarray
+    scores: pd.DataFrame | None
+
+    @property
+    def labels(self) -> pd.Series:
+        return pd.Series(np.asarray(self.names, dtype=object)[self.codes], index=self.patients, name="subtype")
+
+    @property
+    def sizes(self) -> list[int]:
+        return [int(n) for n in np.bincount(self.codes, minlength=len(self.names))]
+
+
+def subtype_grouping(fitted: dict) -> ReportedGrouping:
+    """The final subtypes of a run, with the labeller's confidence and scores."""
+    assignments = fitted["assignments"]
+    names = list(fitted["names"])
+    scores = assignments[[f"score_{j}" for j in range(len(names))]].copy()
+    scores.columns = [f"score_{name}" for name in names]
+    return ReportedGrouping(
+        patients=assignments.index,
+        names=names,
+        codes=assignments["subtype"].to_numpy(dtype=np.int64),
+        confidence=assignments["confidence"].to_numpy(dtype=np.float64),
+        core=assignments["core"].to_numpy(dtype=bool),
+        scores=scores,
+    )
+
+
+def analysis_patients(loaded: dict, prepared: dict | None) -> pd.Index:
+    """Clinical patients measured on at least one modality (all clinical patients without modalities)."""
+    return prepared["patients"] if prepared is not None else loaded["clinical"].index
+
+
+def given_grouping(groups: pd.Series, patients: pd.Index) -> ReportedGrouping:
+    """A grouping the user brought, on the analysis patients it labels (confidence 1, all core)."""
+    labelled = groups.reindex(patients).dropna()
+    if labelled.nunique() < 2:
+        raise InputError(
+            f"--groups: found {labelled.nunique()} group(s) among the {len(patients)} analysis patients "
+            f"({len(labelled)} of the file's {len(groups)} patients are among them); expected at least 2 groups"
+        )
+    names = [str(name) for name in group_order(labelled)]
+    codes = pd.Categorical(labelled.astype(str), categories=names).codes.astype(np.int64)
+    n = len(labelled)
+    return ReportedGrouping(labelled.index, names, codes, np.ones(n), np.ones(n, dtype=bool), None)
+
+
+def left_out_patients(groups: pd.Series, patients: pd.Index) -> pd.DataFrame:
+    """Patients a given grouping leaves out of the evaluation, with why: patient_id, reason."""
+    no_group = patients.difference(groups.index, sort=False)
+    not_analysed = groups.index.difference(patients, sort=False)
+    return pd.DataFrame({
+        "patient_id": [*no_group, *not_analysed],
+        "reason": ["no group in the --groups file (absent or empty)"] * len(no_group)
+        + ["not an analysis patient (no clinical row, or no modality measured)"] * len(not_analysed),
+    })
+
+
+# ---------------------------------------------------------------------------------------------
+# The evaluate stage: survival, clinical association, markers and enrichment of one grouping.
+#
+# Works on our subtypes and equally on a grouping the user brings. A part whose inputs are
+# absent or too thin (no survival columns, no clinical variable, no modalities, no gene-set
+# file, a subtype with a single measured patient) is not run, and `not_run` says why: it maps
+# "survival", "clinical", "markers", "markers/<modality>" or "enrichment" to "not run: <reason>".
+# ---------------------------------------------------------------------------------------------
+
+#: Version of the evaluate stage's result: part of its cache key, so that a result cached
+#: before `not_run` existed is computed again rather than read without it.
+EVALUATION_LAYOUT = 2
+NOT_RUN = "not run: "
+
+
+def clinical_variables(flow: Workflow, clinical: pd.DataFrame) -> list[str]:
+    """Every clinical column except the survival time and event."""
+    outcome = {flow.cohort.time_column, flow.cohort.event_column}
+    return [column for column in clinical.columns if column not in outcome]
+
+
+def _as_record(evaluation) -> dict:
+    return {"tables": evaluation.tables, "summary": evaluation.summary}
+
+
+def _survival_not_run(flow: Workflow, clinical: pd.DataFrame, labels: pd.Series) -> str | None:
+    if not flow.has_survival:
+        return "no survival columns in the workflow (cohort.time_column and cohort.event_column are not set)"
+    return untestable_outcome(labels, clinical, flow.cohort.time_column, flow.cohort.event_column)
+
+
+def _clinical_not_run(flow: Workflow, variables: list[str]) -> str | None:
+    if variables:
+        return None
+    if flow.evaluation.clinical_columns is not None:
+        return "evaluation.clinical_columns names no column"
+    survival = " and the survival columns" if flow.has_survival else ""
+    return f"the clinical table has no column besides the ID column {flow.cohort.id_column!r}{survival}"
+
+
+def _enrichment_not_run(flow: Workflow, markers, reasons: dict[str, str]) -> str | None:
+    if flow.evaluation.gene_sets is None:
+        return "no gene-set file in the workflow (evaluation.gene_sets is not set)"
+    if not flow.modalities:
+        return "no omics layers in the workflow, so no markers to test"
+    modality = gene_set_modality(flow)
+    if markers is None or modality not in markers.tables:
+        return f"the markers of {modality!r} were not run ({reasons[f'markers/{modality}']})"
+    return None
+
+
+def _survival(flow: Workflow, clinical: pd.DataFrame, labels: pd.Series, seed, feedback: Feedback):
+    settings = flow.evaluation
+    with feedback.bar("log-rank permutations", settings.permutations) as progress:
+        return evaluate_survival(
+            labels,
+            clinical,
+            time_column=flow.cohort.time_column,
+            event_column=flow.cohort.event_column,
+            covariates=settings.covariates,
+            strata=settings.strata,
+            horizon=settings.rmst_horizon,
+            n_permutations=settings.permutations,
+            min_group_size=settings.min_group_size,
+            random_state=seed,
+            progress=progress,
+        )
+
+
+def _markers(flow: Workflow, prepared: dict | None, labels: pd.Series) -> tuple[object | None, dict[str, str]]:
+    """Markers of every modality that can be tested (None if none can), and why the others are not run."""
+    views = normalised_views(prepared) if prepared is not None else {}
+    if not views:
+        return None, {"markers": "no omics layers in the workflow"}
+    testable, reasons = {}, {}
+    for name, view in views.items():
+        reason = untestable_modality(labels, view, name)
+        if reason is None:
+            testable[name] = view
+        else:
+            reasons[f"markers/{name}"] = reason
+    if not testable:
+        return None, reasons
+    settings = flow.evaluation
+    markers = markers_by_modality(
+        labels, testable, test=settings.marker_test, top_n=settings.markers_per_subtype, fdr=settings.marker_fdr
+    )
+    return markers, reasons
+
+
+def evaluate_grouping(
+    flow: Workflow, clinical: pd.DataFrame, prepared: dict | None, labels: pd.Series, seed: int, feedback: Feedback
+) -> dict:
+    """Every evaluation the workflow asks for, as {part: {"tables": ..., "summary": ...}}, the labels and `not_run`."""
+    settings = flow.evaluation
+    survival_seed, clinical_seed = child_seeds(seed, 2)
+    parts: dict[str, object] = {"labels": labels}
+    reasons: dict[str, str] = {}
+    reason = _survival_not_run(flow, clinical, labels)
+    if reason is None:
+        parts["survival"] = _as_record(_survival(flow, clinical, labels, survival_seed, feedback))
+    else:
+        reasons["survival"] = reason
+    variables = list(clinical_variables(flow, clinical) if settings.clinical_columns is None else settings.clinical_columns)
+    reason = _clinical_not_run(flow, variables)
+    if reason is None:
+        association = associate_clinical(
+            labels,
+            clinical,
+            variables=variables,
+            categorical=settings.categorical_columns,
+            n_monte_carlo=settings.monte_carlo,
+            random_state=clinical_seed,
+        )
+        parts["clinical"] = _as_record(association)
+    else:
+        reasons["clinical"] = reason
+    markers, skipped = _markers(flow, prepared, labels)
+    reasons.update(skipped)
+    if markers is not None:
+        parts["markers"] = _as_record(markers)
+    reason = _enrichment_not_run(flow, markers, reasons)
+    if reason is None:
+        parts["enrichment"] = _as_record(_enrichment(flow, markers))
+    else:
+        reasons["enrichment"] = reason
+    parts["not_run"] = {part: NOT_RUN + reason for part, reason in reasons.items()}
+    return parts
+
+
+def gene_set_modality(flow: Workflow) -> str:
+    """The modality whose markers enrichment tests: evaluation.gene_set_modality or the first."""
+    return flow.evaluation.gene_set_modality or flow.modalities[0].name
+
+
+def workflow_gene_sets(flow: Workflow) -> dict:
+    """The gene sets of the workflow's `evaluation.gene_sets` file, read in its format."""
+    read = read_gene_set_lines if flow.evaluation.gene_set_format == "lines" else read_gene_set_table
+    return read(flow.evaluation.gene_sets)
+
+
+def check_gene_sets(flow: Workflow, views: dict[str, pd.DataFrame]) -> None:
+    """Before any heavy stage: InputError naming the workflow's gene-set file when no set in it names a
+    measured feature of the modality it is for (`views`: the normalised modalities)."""
+    modality = gene_set_modality(flow)
+    if flow.evaluation.gene_sets is None or modality not in views:
+        return
+    features = pd.Index(views[modality].columns.astype(str))
+    try:
+        set_membership(workflow_gene_sets(flow), features, 1, max(1, len(features)))
+    except InputError as problem:
+        raise InputError(f"{flow.evaluation.gene_sets} (for modality {modality!r}): {problem}") from None
+
+
+def _enrichment(flow: Workflow, markers):
+    """Gene-set enrichment of the markers of one modality (evaluation.gene_set_modality or the first)."""
+    settings = flow.evaluation
+    return enrich_markers(
+        markers.tables[gene_set_modality(flow)],
+        workflow_gene_sets(flow),
+        fdr=settings.marker_fdr,
+        min_size=settings.min_set_size,
+        max_size=settings.max_set_size,
+        top_n=settings.sets_per_subtype,
+    )
+
+
+# ---------------------------------------------------------------------------------------------
+# The stages of `strataweave run` and `strataweave evaluate`
+# ---------------------------------------------------------------------------------------------
 
 def _load_stage(flow: Workflow, hashes: dict[str, str]) -> Stage:
     parameters = {

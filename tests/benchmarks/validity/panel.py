@@ -36,11 +36,10 @@ from open_sets import OPEN_SETS  # noqa: E402
 
 from strataweave.subtypes.baselines import concatenated_scaled  # noqa: E402
 from strataweave.workflow.config import load_workflow  # noqa: E402
-from strataweave.workflow.graphing import build_graph  # noqa: E402
-from strataweave.workflow.loading import load_inputs  # noqa: E402
-from strataweave.workflow.preparing import normalised_views, prepare_cohort  # noqa: E402
 from strataweave.workflow.progress import QUIET, Feedback  # noqa: E402
-from strataweave.workflow.sweeping import final_fit, run_sweep, select_count  # noqa: E402
+from strataweave.workflow.stages import (  # noqa: E402
+    build_graph, final_fit, load_inputs, normalised_views, prepare_cohort, run_sweep, select_count,
+)
 
 SEED = 20261202
 KEEP: Path | None = None  # folder for each cohort's criteria table (--keep)
