@@ -16,7 +16,7 @@ from strataweave.workflow.progress import Feedback
 EVIDENCE_COLUMNS = ("rule", "quorum", "confirmed_share", "fallback_patients", "chosen")
 
 
-def build_graph(flow: Workflow, prepared: dict, feedback: Feedback) -> dict:
+def build_graph(flow: Workflow, prepared: dict, seed: int, feedback: Feedback) -> dict:
     """The fused affinity on the analysis patients (their order), its diagnostics and a 2-D embedding."""
     settings = flow.graph
     views = normalised_views(prepared)
@@ -28,6 +28,8 @@ def build_graph(flow: Workflow, prepared: dict, feedback: Feedback) -> dict:
             n_neighbours=settings.neighbours,
             metric=settings.metric,
             kernel=settings.kernel,
+            neighbour_search=settings.neighbour_search,
+            random_state=seed,
             progress=progress,
         )
     graph = graph.restrict(prepared["patients"])
@@ -44,6 +46,9 @@ def build_graph(flow: Workflow, prepared: dict, feedback: Feedback) -> dict:
             "rule_requested": graph.parameters["rule_requested"],
             "rule_evidence": graph.rule_evidence[list(EVIDENCE_COLUMNS)].to_dict(orient="records"),
             "neighbours": settings.neighbours,
+            "neighbour_search": graph.parameters["neighbour_search"],
+            "neighbour_search_requested": settings.neighbour_search,
+            "approximate_above": graph.parameters["approximate_above"],
             "isolated_patients": int(len(graph.isolated_patients)),
             "fallback_patients": int(len(graph.fallback_patients)),
             "components": int(n_components),

@@ -59,6 +59,12 @@ def _evaluation_parameters(flow: Workflow, hashes: dict[str, str], seed: int) ->
             "groups": hashes.get("groups")}
 
 
+def _graph_parameters(flow: Workflow, seed: int) -> dict:
+    """The [graph] keys, and the seed where the search may be approximate (an exact graph ignores it)."""
+    settings = dataclasses.asdict(flow.graph)
+    return settings if flow.graph.neighbour_search == "exact" else {**settings, "seed": seed}
+
+
 def build_stages(
     flow: Workflow, hashes: dict[str, str], seeds: dict[str, int], feedback: Feedback, groups: pd.Series | None = None
 ) -> list[Stage]:
@@ -85,8 +91,8 @@ def build_stages(
         "seed": seeds["sweep"],
     }
     stages += [
-        Stage("graphs", ("prepare",), dataclasses.asdict(flow.graph),
-              lambda inputs: build_graph(flow, inputs["prepare"], feedback)),
+        Stage("graphs", ("prepare",), _graph_parameters(flow, seeds["graphs"]),
+              lambda inputs: build_graph(flow, inputs["prepare"], seeds["graphs"], feedback)),
         Stage("sweep", ("prepare", "graphs"), sweep_parameters,
               lambda inputs: run_sweep(flow, inputs["prepare"], inputs["graphs"], seeds["sweep"], feedback,
                                        inputs[WORK]),
