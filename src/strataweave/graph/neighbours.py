@@ -27,11 +27,14 @@ SELECTION_THREADS = max(1, min(4, os.cpu_count() or 1))
 #: pynndescent is installed, exact otherwise.
 SEARCHES = ("auto", "exact", "approximate")
 
-# `auto` searches approximately in a modality with more patients than this. Provisional, from a
-# first measurement on the 2-core development machine (shared, timings noisy), one modality of
-# 2,000 features, k = 20, pynndescent's kernels already compiled: exact 4.1 s vs approximate
-# 1.7 s at 5,000 patients, 16.0 s vs 4.2 s at 10,000 (recall >= 0.99).
-APPROXIMATE_ABOVE = 3000
+# `auto` searches approximately in a modality with more patients than this. Measured with
+# tests/benchmarks/bench_neighbours.py on the 2-core development machine (shared, so noisy):
+# 3 modalities x 2,000 features, k = 20, all three searches (exact / approximate, seconds):
+# 2.6 / 48 at 2,000 patients, 12 / 68 at 5,000, 53 / 78 at 10,000, 202 / 81 at 20,000 (recall
+# 0.999). One search once compiled costs 15 / 5 s at 10,000 and 60 / 9 s at 20,000, but the first
+# approximate search of a process also compiles pynndescent's kernels (about 45 s), so a cohort
+# gains from it only above about 12,000 patients with 3 modalities, 15,000 with 2, 20,000 with 1.
+APPROXIMATE_ABOVE = 15_000
 
 INSTALL_HINT = "pip install 'strataweave[scale]' (or pip install pynndescent)"
 
