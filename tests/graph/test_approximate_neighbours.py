@@ -95,7 +95,9 @@ def test_auto_is_exact_up_to_the_threshold_and_approximate_above():
 
 def test_auto_is_exact_without_pynndescent_and_approximate_then_says_how_to_install(monkeypatch):
     monkeypatch.setattr(neighbours, "approximate_available", lambda: False)
-    assert chosen_search("auto", APPROXIMATE_ABOVE + 1) == "exact"
+    assert chosen_search("auto", APPROXIMATE_ABOVE) == "exact"
+    with pytest.warns(UserWarning, match="searched exactly, as pynndescent is not installed.*pip install"):
+        assert chosen_search("auto", APPROXIMATE_ABOVE + 1) == "exact"
     with pytest.raises(InputError, match=r"^neighbour_search: .*pip install") as caught:
         chosen_search("approximate", 50)
     assert "\n" not in str(caught.value)

@@ -30,10 +30,11 @@ SEARCHES = ("auto", "exact", "approximate")
 # `auto` searches approximately in a modality with more patients than this. Measured with
 # tests/benchmarks/bench_neighbours.py on the 2-core development machine (shared, so noisy):
 # 3 modalities x 2,000 features, k = 20, all three searches (exact / approximate, seconds):
-# 2.6 / 48 at 2,000 patients, 12 / 68 at 5,000, 53 / 78 at 10,000, 202 / 81 at 20,000 (recall
-# 0.999). One search once compiled costs 15 / 5 s at 10,000 and 60 / 9 s at 20,000, but the first
-# approximate search of a process also compiles pynndescent's kernels (about 45 s), so a cohort
-# gains from it only above about 12,000 patients with 3 modalities, 15,000 with 2, 20,000 with 1.
+# 2.6 / 48 at 2,000 patients, 12 / 68 at 5,000, 53 / 78 at 10,000, 119 / 140 at 15,000,
+# 202 / 81 at 20,000 (recall 0.999 at each). One search once compiled costs 15 / 5 s at 10,000
+# and 60 / 9 s at 20,000, but the first approximate search of a process also compiles
+# pynndescent's kernels: 36-55 s, 115 s at 15,000 where the machine was busier. The two cross
+# between 15,000 and 20,000 patients; nearer 12,000 when the compilation takes 45 s.
 APPROXIMATE_ABOVE = 15_000
 
 INSTALL_HINT = "pip install 'strataweave[scale]' (or pip install pynndescent)"
@@ -53,11 +54,20 @@ def check_search(search: str) -> None:
 
 
 def chosen_search(search: str, n_rows: int) -> str:
-    """`exact` or `approximate` for a modality of n_rows patients under the requested search."""
+    """`exact` or `approximate` for a modality of n_rows patients under the requested search.
+
+    `auto` above the threshold without pynndescent searches exactly and warns that it could be faster.
+    """
     check_search(search)
     if search != "auto":
         return search
-    return "approximate" if n_rows > APPROXIMATE_ABOVE and approximate_available() else "exact"
+    if n_rows <= APPROXIMATE_ABOVE:
+        return "exact"
+    if approximate_available():
+        return "approximate"
+    warnings.warn(f"neighbour_search 'auto': {n_rows} patients (more than {APPROXIMATE_ABOVE}) searched exactly, "
+                  f"as pynndescent is not installed; for the faster approximate search: {INSTALL_HINT}", stacklevel=2)
+    return "exact"
 
 
 def find_neighbours(space: RowSpace, n_neighbours: int, search: str = "exact",
