@@ -30,11 +30,11 @@ SEARCHES = ("auto", "exact", "approximate")
 # `auto` searches approximately in a modality with more patients than this. Measured with
 # tests/benchmarks/bench_neighbours.py on the 2-core development machine (shared, so noisy):
 # 3 modalities x 2,000 features, k = 20, all three searches (exact / approximate, seconds):
-# 2.6 / 48 at 2,000 patients, 12 / 68 at 5,000, 53 / 78 at 10,000, 119 / 140 at 15,000,
-# 202 / 81 at 20,000 (recall 0.999 at each). One search once compiled costs 15 / 5 s at 10,000
-# and 60 / 9 s at 20,000, but the first approximate search of a process also compiles
-# pynndescent's kernels: 36-55 s, 115 s at 15,000 where the machine was busier. The two cross
-# between 15,000 and 20,000 patients; nearer 12,000 when the compilation takes 45 s.
+# 2.6 / 48 at 2,000 patients, 12 / 68 at 5,000, 53 / 78 at 10,000, 107 / 56 at 15,000 (119 / 140
+# in a busier run), 202 / 81 at 20,000, 1471 / 180 at 50,000 (recall 0.997-1.000). One search once
+# compiled costs 15 / 5 s at 10,000 and 60 / 9 s at 20,000, but the first approximate search of a
+# process also compiles pynndescent's kernels (32-55 s, 115 s when busier), which only pays off
+# from about 12,000 patients with 3 modalities, so the threshold sits a little above that.
 APPROXIMATE_ABOVE = 15_000
 
 INSTALL_HINT = "pip install 'strataweave[scale]' (or pip install pynndescent)"
