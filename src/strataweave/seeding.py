@@ -12,7 +12,7 @@ def child_seeds(seed: int | np.random.SeedSequence | None, n: int) -> list[int]:
 
 
 #: The randomised stages of a run, in the order their seeds are spawned from the run's seed.
-RUN_STAGES = ("sweep", "evaluate")
+RUN_STAGES = ("sweep", "evaluate", "graphs")  # new stages go last: earlier seeds stay as they were
 
 
 def run_seeds(seed: int) -> dict[str, int]:

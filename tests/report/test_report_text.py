@@ -56,6 +56,24 @@ def test_methods_paragraph_names_each_preprocessing_step_and_the_software_versio
     assert "strataweave (version not recorded)" in methods_paragraph(results)[0]
 
 
+def test_methods_paragraph_says_when_neighbours_were_found_approximately():
+    results, _ = make_results()
+    graph = results["graph"]
+    graph.update(neighbour_search={"rna": "exact", "methylation": "exact"}, neighbour_search_requested="auto",
+                 approximate_above=3000)
+    text, cited = methods_paragraph(results)
+    assert "approximately" not in text and "dong2011" not in cited
+    graph["neighbour_search"]["methylation"] = "approximate"
+    text, cited = methods_paragraph(results)
+    assert ("found approximately, by nearest-neighbour descent" in text and "in methylation, exactly in the others "
+            "(the automatic rule searches approximately in a modality of more than 3000 patients" in text)
+    assert "dong2011" in cited
+    graph.update(neighbour_search={"rna": "approximate", "methylation": "approximate"},
+                 neighbour_search_requested="approximate")
+    text, _ = methods_paragraph(results)
+    assert "in rna and methylation (as the workflow asked)" in text
+
+
 def test_methods_paragraph_invents_no_parameter():
     results, _ = make_results(survival=False, markers=False)
     results.pop("parameters")

@@ -37,7 +37,10 @@ def test_each_setting_reruns_its_stage_and_what_follows(tiny_files: Path) -> Non
     assert _changed(base, _keys(count)) == ["select", "final_fit", "evaluate"]
     evaluation = dataclasses.replace(flow, evaluation=dataclasses.replace(flow.evaluation, permutations=5))
     assert _changed(base, _keys(evaluation)) == ["evaluate"]
-    assert _changed(base, _keys(flow.with_overrides(seed=99))) == ["sweep", "select", "final_fit", "evaluate"]
+    # the default search (auto) may be approximate, which the seed steers; an exact graph ignores the seed
+    assert _changed(base, _keys(flow.with_overrides(seed=99))) == ["graphs", "sweep", "select", "final_fit", "evaluate"]
+    exact = dataclasses.replace(flow, graph=dataclasses.replace(flow.graph, neighbour_search="exact"))
+    assert _changed(_keys(exact), _keys(exact.with_overrides(seed=99))) == ["sweep", "select", "final_fit", "evaluate"]
 
 
 def test_an_edited_input_file_reruns_everything(tiny_files: Path) -> None:

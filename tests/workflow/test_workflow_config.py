@@ -64,6 +64,7 @@ def test_modality_keys_are_all_optional_except_name_path_kind() -> None:
     [
         ("\n[graph]\nneighbors = 5\n", "graph.neighbors"),
         ("\n[graph]\nneighbours = 1\n", "graph.neighbours"),
+        ("\n[graph]\nneighbour_search = \"fast\"\n", "graph.neighbour_search"),
         ("\n[subtypes]\ncounts = [1, 2]\n", "subtypes.counts"),
         ("\n[subtypes]\ncounts = [2, 3]\nuse_count = 5\n", "subtypes.use_count"),
         ("\n[resampling]\nfraction = 1.5\n", "resampling.fraction"),
@@ -75,6 +76,14 @@ def test_errors_name_the_key(tiny_files: Path, addition: str, key: str) -> None:
         parse_workflow(MINIMAL + addition, tiny_files / "flow.toml")
     message = str(caught.value)
     assert f"'{key}'" in message and "flow.toml" in message and "\n" not in message
+
+
+def test_neighbour_search_is_read_with_auto_by_default(tiny_files: Path) -> None:
+    assert parse_workflow(MINIMAL, tiny_files / "flow.toml").graph.neighbour_search == "auto"
+    text = MINIMAL + '\n[graph]\nneighbour_search = "approximate"\n'
+    assert parse_workflow(text, tiny_files / "flow.toml").graph.neighbour_search == "approximate"
+    with pytest.raises(InputError, match=r"'graph\.neighbour_search': found 'fast', expected one of .*auto.*exact.*approximate"):
+        parse_workflow(MINIMAL + '\n[graph]\nneighbour_search = "fast"\n', tiny_files / "flow.toml")
 
 
 def test_error_in_a_modality_names_it(tiny_files: Path) -> None:

@@ -14,14 +14,17 @@ from strataweave.report.palette import NEUTRAL, subtype_colours
 class GraphFusion(Shown, BaseEstimator):
     """One k-nearest-neighbour graph per modality, fused by `rule` (see `graph.fuse_modalities`).
 
+    `neighbour_search` is `auto`, `exact` or `approximate` (see `graph.neighbours`); the
+    approximate search is seeded from `random_state`, so the same seed gives the same graph.
     Learned: `graph_` (PatientGraph on the cohort's patients, in their order), `affinity_`,
-    `rule_` (the rule used: `auto` picks one) and `rule_evidence_`.
+    `rule_` (the rule used: `auto` picks one), `rule_evidence_` and `neighbour_search_`
+    (the search each modality got).
     """
 
     def __init__(self, rule: str = "auto", quorum: int | None = None, n_neighbours: int = 20,
                  metric: str = "euclidean", kernel: str = "scaled_exponential", kernel_spread: float = 0.5,
                  bandwidth: float | None = None, diffusion_neighbours: int | None = None,
-                 diffusion_iterations: int = 20):
+                 diffusion_iterations: int = 20, neighbour_search: str = "auto", random_state: int | None = None):
         self.rule = rule
         self.quorum = quorum
         self.n_neighbours = n_neighbours
@@ -31,6 +34,8 @@ class GraphFusion(Shown, BaseEstimator):
         self.bandwidth = bandwidth
         self.diffusion_neighbours = diffusion_neighbours
         self.diffusion_iterations = diffusion_iterations
+        self.neighbour_search = neighbour_search
+        self.random_state = random_state
 
     def fit(self, cohort: Cohort | dict, y=None) -> GraphFusion:
         """Fuse a Cohort's normalised views (or a dict of patients x features tables)."""
@@ -40,6 +45,7 @@ class GraphFusion(Shown, BaseEstimator):
         self.affinity_ = self.graph_.affinity
         self.rule_ = self.graph_.rule
         self.rule_evidence_ = self.graph_.rule_evidence
+        self.neighbour_search_ = self.graph_.parameters["neighbour_search"]
         return self
 
     @property

@@ -19,11 +19,12 @@ from strataweave.graph.checks import check_count, check_overlap, check_settings,
 from strataweave.graph.diffusion import diffuse
 from strataweave.graph.kernels import default_bandwidth, gaussian, local_scales, scaled_exponential
 from strataweave.graph.metrics import paired_distances, prepare_rows
-from strataweave.graph.neighbours import nearest_neighbours
+from strataweave.graph.neighbours import APPROXIMATE_ABOVE, check_search, chosen_search, find_neighbours
 from strataweave.graph.pairs import neighbour_pairs, pair_codes, strongest_pairs, symmetric_matrix, unique_pairs
 from strataweave.graph.patient_graph import PatientGraph
 from strataweave.graph.rule_choice import choose_rule, rule_candidates
 from strataweave.graph.rules import check_rule, combine_values
+from strataweave.seeding import child_seeds
 
 
 @dataclass(frozen=True)
@@ -54,6 +55,8 @@ def fuse_modalities(
     bandwidth: float | None = None,
     diffusion_neighbours: int | None = None,
     diffusion_iterations: int = 20,
+    neighbour_search: str = "auto",
+    random_state: int | None = None,
     progress: Callable[[int], None] | None = None,
 ) -> PatientGraph:
     """One sparse patient graph from several modalities (patients x features DataFrames).
@@ -64,6 +67,9 @@ def fuse_modalities(
     diffusion, with `diffusion_neighbours` (default n_neighbours) and `diffusion_iterations`).
     kernel: `scaled_exponential` (local scales, width `kernel_spread`) or `gaussian`
     (one `bandwidth` per modality, default the median k-nearest-neighbour distance).
+    neighbour_search: `exact`, `approximate` (needs pynndescent; seeded per modality from
+    `random_state`) or `auto` (approximate for a modality of more than APPROXIMATE_ABOVE
+    patients when pynndescent is installed, exact otherwise).
     A patient missing a modality has no edges in that modality's graph. Patients the rule
     leaves without an edge are connected to their k strongest pairs of the average graph
     and listed in `fallback_patients`. `progress` is called with the number of finished
@@ -76,6 +82,7 @@ def fuse_modalities(
     check_rule(rule, quorum, len(names))
     check_settings(n_neighbours, kernel, kernel_spread, bandwidth)
     check_count("diffusion_iterations", diffusion_iterations)
+    check_search(neighbour_search)
     if diffusion_neighbours is not None:
         check_count("diffusion_neighbours", diffusion_neighbours)
     metrics = metric_per_modality(metric, names)
@@ -85,12 +92,14 @@ def fuse_modalities(
     n = len(patients)
 
     report = _pass_counter(progress)
+    searches = {name: chosen_search(neighbour_search, len(matrices[name])) for name in names}
+    seeds = dict(zip(names, child_seeds(random_state, len(names))))
     kernels: dict[str, _ModalityKernel] = {}
     modality_graphs = {}
     for name in names:
         kernels[name], modality_graphs[name] = _modality_pass(
             matrices[name], metrics[name], patients.get_indexer(frames[name].index), n, n_neighbours,
-            kernel, kernel_spread, bandwidth,
+            kernel, kernel_spread, bandwidth, searches[name], seeds[name],
         )
         report()
 
@@ -132,6 +141,8 @@ def fuse_modalities(
             "bandwidth": {name: float(kernels[name].bandwidth) for name in names} if kernel == "gaussian" else None,
             "diffusion_neighbours": (diffusion_neighbours or n_neighbours) if rule == "diffusion" else None,
             "diffusion_iterations": diffusion_iterations if rule == "diffusion" else None,
+            "neighbour_search": searches, "neighbour_search_requested": neighbour_search,
+            "approximate_above": APPROXIMATE_ABOVE,
         },
     )
 
@@ -148,9 +159,9 @@ def _union_in_order(indexes: list[pd.Index]) -> pd.Index:
     return pd.Index(combined[~combined.duplicated()], name="patient_id")
 
 
-def _modality_pass(matrix, metric, positions, n, n_neighbours, kernel, spread, bandwidth):
-    """Nearest neighbours of one modality and its own k-nearest-neighbour kernel graph."""
-    neighbours, distances = nearest_neighbours(prepare_rows(matrix, metric), n_neighbours)
+def _modality_pass(matrix, metric, positions, n, n_neighbours, kernel, spread, bandwidth, search, seed):
+    """Nearest neighbours of one modality (by `search`) and its own k-nearest-neighbour kernel graph."""
+    neighbours, distances = find_neighbours(prepare_rows(matrix, metric), n_neighbours, search, seed)
     own_rows, own_cols = neighbour_pairs(positions, neighbours)
     own_left, own_right, source = unique_pairs(own_rows, own_cols, n)
     modality = _ModalityKernel(

@@ -61,8 +61,13 @@ def distances_from_scores(space: RowSpace, scores: np.ndarray, left_norms) -> np
 
 def block_scores(space: RowSpace, start: int, stop: int) -> np.ndarray:
     """Scores from rows start..stop-1 to every row (a (stop - start) x n block), ordered like distances."""
+    return row_scores(space, slice(start, stop))
+
+
+def row_scores(space: RowSpace, rows) -> np.ndarray:
+    """Scores from `rows` (a slice or positions) to every row, ordered like distances."""
     norms = space.squared_norms[None, :] if space.squared_norms is not None else None
-    return _scores(space, space.rows[start:stop] @ space.rows.T, norms)
+    return _scores(space, space.rows[rows] @ space.rows.T, norms)
 
 
 def left_norms(space: RowSpace, rows) -> np.ndarray | None:

@@ -16,6 +16,8 @@ REFERENCES: dict[str, str] = {
                "representation. IEEE Trans Pattern Anal Mach Intell 2011;33:1548-1560.",
     "wang2014": "Wang B, Mezlini AM, Demir F, et al. Similarity network fusion for aggregating data types on a "
                 "genomic scale. Nat Methods 2014;11:333-337.",
+    "dong2011": "Dong W, Moses C, Li K. Efficient k-nearest neighbor graph construction for generic similarity "
+                "measures. Proc 20th Int Conf World Wide Web 2011:577-586.",
     "monti2003": "Monti S, Tamayo P, Mesirov J, Golub T. Consensus clustering: a resampling-based method for "
                  "class discovery and visualization of gene expression microarray data. Mach Learn 2003;52:91-118.",
     "senbabaoglu2014": "Senbabaoglu Y, Michailidis G, Li JZ. Critical limitations of consensus clustering in class "
@@ -123,7 +125,8 @@ def methods_paragraph(results: dict[str, Any], version: str | None = None) -> tu
              f"Per modality, {built}, and the graphs were fused by the {_fusion_phrase(graph)}; ")
             + (f"{graph['fallback_patients']} patients left without an edge were linked to their nearest "
                "neighbours in the average graph." if graph["fallback_patients"] else
-               "no patient was left without an edge."))
+               "no patient was left without an edge.")
+            + _search_phrase(graph, cite))
     if results.get("selection"):
         selection = results["selection"]
         restarts = _get(p, "factorization.restarts")
@@ -197,6 +200,22 @@ def methods_paragraph(results: dict[str, Any], version: str | None = None) -> tu
 
 def _words_or_none(name: Any) -> str | None:
     return None if name is None else words(str(name))
+
+
+def _search_phrase(graph: dict, cite) -> str:
+    """' Neighbours were found approximately ...' when any modality's were; '' when all were exact."""
+    searches = graph.get("neighbour_search") or {}
+    approximate = [name for name, search in searches.items() if search == "approximate"]
+    if not approximate:
+        return ""
+    others = ", exactly in the others" if len(approximate) < len(searches) else ""
+    if graph.get("neighbour_search_requested") == "auto" and graph.get("approximate_above") is not None:
+        rule = (f"the automatic rule searches approximately in a modality of more than "
+                f"{format_value(graph['approximate_above'])} patients, exactly otherwise")
+    else:
+        rule = "as the workflow asked"
+    return (f" Nearest neighbours were found approximately, by nearest-neighbour descent{cite('dong2011')} "
+            f"(pynndescent, seeded from the run's seed), in {listing(approximate)}{others} ({rule}).")
 
 
 def _fusion_phrase(graph: dict) -> str:

@@ -38,6 +38,7 @@ from strataweave.factorize.joint_nmf import INIT_METHODS
 from strataweave.graph import fuse_modalities
 from strataweave.graph.kernels import KERNELS
 from strataweave.graph.metrics import METRICS
+from strataweave.graph.neighbours import APPROXIMATE_ABOVE, SEARCHES
 from strataweave.graph.rules import RULES
 from strataweave.subtypes.parallel import BACKENDS
 from strataweave.subtypes.settings import LABELS_FROM, START_FROM, SweepSettings
@@ -281,6 +282,11 @@ class GraphSettings:
     kernel: str = key(choice(*KERNELS), default_of(fuse_modalities, "kernel"))
     fusion: str = key(choice(*RULES), default_of(fuse_modalities, "rule"))
     quorum: int | None = key(integer(1), None, doc="modalities that must agree (fusion = quorum)")
+    neighbour_search: str = key(
+        choice(*SEARCHES), default_of(fuse_modalities, "neighbour_search"),
+        doc=f"auto: approximate (pynndescent, seeded from the run's seed) for a modality of more than "
+        f"{APPROXIMATE_ABOVE} patients when installed, exact otherwise",
+    )
 
 
 @dataclass(frozen=True)

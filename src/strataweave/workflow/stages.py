@@ -174,7 +174,7 @@ def aligned_views(prepared: dict) -> list[pd.DataFrame]:
 EVIDENCE_COLUMNS = ("rule", "quorum", "confirmed_share", "fallback_patients", "chosen")
 
 
-def build_graph(flow: Workflow, prepared: dict, feedback: Feedback) -> dict:
+def build_graph(flow: Workflow, prepared: dict, seed: int, feedback: Feedback) -> dict:
     """The fused affinity on the analysis patients (their order), its diagnostics and a 2-D embedding."""
     settings = flow.graph
     views = normalised_views(prepared)
@@ -186,6 +186,8 @@ def build_graph(flow: Workflow, prepared: dict, feedback: Feedback) -> dict:
             n_neighbours=settings.neighbours,
             metric=settings.metric,
             kernel=settings.kernel,
+            neighbour_search=settings.neighbour_search,
+            random_state=seed,
             progress=progress,
         )
     graph = graph.restrict(prepared["patients"])
@@ -202,6 +204,9 @@ def build_graph(flow: Workflow, prepared: dict, feedback: Feedback) -> dict:
             "rule_requested": graph.parameters["rule_requested"],
             "rule_evidence": graph.rule_evidence[list(EVIDENCE_COLUMNS)].to_dict(orient="records"),
             "neighbours": settings.neighbours,
+            "neighbour_search": graph.parameters["neighbour_search"],
+            "neighbour_search_requested": settings.neighbour_search,
+            "approximate_above": graph.parameters["approximate_above"],
             "isolated_patients": int(len(graph.isolated_patients)),
             "fallback_patients": int(len(graph.fallback_patients)),
             "components": int(n_components),
@@ -658,6 +663,12 @@ def _evaluation_parameters(flow: Workflow, hashes: dict[str, str], seed: int) ->
             "groups": hashes.get("groups")}
 
 
+def _graph_parameters(flow: Workflow, seed: int) -> dict:
+    """The [graph] keys, and the seed where the search may be approximate (an exact graph ignores it)."""
+    settings = dataclasses.asdict(flow.graph)
+    return settings if flow.graph.neighbour_search == "exact" else {**settings, "seed": seed}
+
+
 def build_stages(
     flow: Workflow, hashes: dict[str, str], seeds: dict[str, int], feedback: Feedback, groups: pd.Series | None = None
 ) -> list[Stage]:
@@ -684,8 +695,8 @@ def build_stages(
         "seed": seeds["sweep"],
     }
     stages += [
-        Stage("graphs", ("prepare",), dataclasses.asdict(flow.graph),
-              lambda inputs: build_graph(flow, inputs["prepare"], feedback)),
+        Stage("graphs", ("prepare",), _graph_parameters(flow, seeds["graphs"]),
+              lambda inputs: build_graph(flow, inputs["prepare"], seeds["graphs"], feedback)),
         Stage("sweep", ("prepare", "graphs"), sweep_parameters,
               lambda inputs: run_sweep(flow, inputs["prepare"], inputs["graphs"], seeds["sweep"], feedback,
                                        inputs[WORK]),
