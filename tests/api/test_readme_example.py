@@ -43,7 +43,7 @@ def runs(tmp_path_factory) -> dict:
     workflow = fewer_resamples(workflow, r"formats = \[[^\]]*\]", "formats = []")
     code = readme_example()
     if not FULL:
-        workflow = fewer_resamples(workflow, r"\nresamples = 50 ", f"\nresamples = {RESAMPLES} ")
+        workflow = fewer_resamples(workflow, r"\nn_resamples = 50 ", f"\nn_resamples = {RESAMPLES} ")
         code = fewer_resamples(code, r"SubtypeSweep\(", f"SubtypeSweep(n_resamples={RESAMPLES}, ")
     (folder / "flow.toml").write_text(workflow, encoding="utf-8")
     assert main(["--quiet", "run", str(folder / "flow.toml"), "--out", str(folder / "cli")]) == 0

@@ -31,7 +31,7 @@ def test_every_result_has_a_summary_plots_and_an_html_view(analysis):
     planted = made.planted.rename("planted")
     survival = sw.SurvivalComparison("os_months", "os_event", n_permutations=50, random_state=0).fit(planted, made.clinical)
     clinical = sw.ClinicalAssociation(["age_years"], n_monte_carlo=100, random_state=0).fit(planted, made.clinical)
-    markers = sw.MarkerSearch(top_n=5).fit(planted, cohort)
+    markers = sw.MarkerSearch(markers_per_subtype=5).fit(planted, cohort)
     agreement = sw.PartitionAgreement(sweep.model(3).labels_, planted)
     shown = {graph: graph.plot_embedding(planted), sweep: sweep.plot_criteria(), survival: survival.plot_curves(),
              clinical: clinical.plot_p_values(), markers: markers.plot_markers("protein"),

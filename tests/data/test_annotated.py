@@ -83,8 +83,8 @@ def _workflow(folder, clinical: str, paths: dict[str, str]) -> str:
     modalities = "".join(f'\n[[modality]]\nname = "{n}"\npath = "{paths[n]}"\nkind = "{k}"\nimpute = "median"\n'
                          for n, (_, k) in FILES.items())
     return (f'seed = 5\n[cohort]\nclinical = "{clinical}"\ntime_column = "os_months"\nevent_column = "os_event"\n'
-            f'{modalities}\n[subtypes]\ncounts = [2, 3]\n[resampling]\nresamples = 2\n'
-            f'[evaluation]\npermutations = 0\n[report]\nformats = []\n')
+            f'{modalities}\n[subtypes]\ncounts = [2, 3]\n[resampling]\nn_resamples = 2\n'
+            f'[evaluation]\nn_permutations = 0\n[report]\nformats = []\n')
 
 
 def test_the_command_line_runs_on_an_h5mu_as_on_the_tables(tables, tmp_path):

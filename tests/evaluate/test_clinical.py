@@ -75,7 +75,7 @@ def _cohort(seed=5, n=150):
 def test_association_table_tests_counts_and_adjusts():
     grouping, clinical = _cohort()
     clinical.loc[["P000", "P001", "P002"], "age"] = np.nan
-    result = associate_clinical(grouping, clinical, categorical=["grade"], n_monte_carlo=500, random_state=3)
+    result = associate_clinical(grouping, clinical, categorical_columns=["grade"], n_monte_carlo=500, random_state=3)
     table = result.tables["association"].set_index("variable")
     assert table.loc["age", "test"] == "kruskal_wallis" and table.loc["age", "n_missing"] == 3
     assert table.loc["sex", "test"] == "chi_square"
@@ -99,10 +99,10 @@ def test_association_table_tests_counts_and_adjusts():
 def test_untestable_variable_and_unknown_column():
     grouping, clinical = _cohort()
     clinical["site"] = "one site"
-    row = associate_clinical(grouping, clinical, variables=["site"]).summary["variables"][0]
+    row = associate_clinical(grouping, clinical, clinical_columns=["site"]).summary["variables"][0]
     assert row["p_value"] is None and row["status"].startswith("not tested")
     with pytest.raises(InputError, match="no column 'bmi'"):
-        associate_clinical(grouping, clinical, variables=["bmi"])
+        associate_clinical(grouping, clinical, clinical_columns=["bmi"])
 
 
 def test_a_table_with_only_patient_ids_gives_empty_tables_with_their_header():
@@ -118,8 +118,8 @@ def test_a_table_with_only_patient_ids_gives_empty_tables_with_their_header():
 
 def test_monte_carlo_is_seeded():
     grouping, clinical = _cohort()
-    first = associate_clinical(grouping, clinical, variables=["stage"], n_monte_carlo=300, random_state=9)
-    again = associate_clinical(grouping, clinical, variables=["stage"], n_monte_carlo=300, random_state=9)
+    first = associate_clinical(grouping, clinical, clinical_columns=["stage"], n_monte_carlo=300, random_state=9)
+    again = associate_clinical(grouping, clinical, clinical_columns=["stage"], n_monte_carlo=300, random_state=9)
     assert first.summary == again.summary
 
 

@@ -35,7 +35,7 @@ def test_tea_tasting_as_over_representation():
     cups = [f"cup{i}" for i in range(8)]
     picked = [[True, True, True, False, True, False, False, False]]
     table = _marker_table(cups, ["lady"], [list(range(8))], picked)
-    result = enrich_markers(table, {"milk_first": cups[:4]}, min_size=1)
+    result = enrich_markers(table, {"milk_first": cups[:4]}, min_set_size=1)
     row = result.tables["over_representation"].iloc[0]
     assert row["overlap"] == 3 and row["set_size"] == 4 and row["n_selected"] == 4
     assert row["p_value"] == pytest.approx(17 / 70)  # Fisher 1935
@@ -47,7 +47,7 @@ def test_over_representation_equals_hypergeometric_and_fisher_tails():
     selected = [rng.uniform(size=300) < 0.1, rng.uniform(size=300) < 0.2]
     table = _marker_table(features, ["x", "y"], rng.normal(size=(2, 300)), selected)
     sets = {f"S{k}": list(rng.choice(features, rng.integers(10, 60), replace=False)) for k in range(20)}
-    result = enrich_markers(table, sets, min_size=5)
+    result = enrich_markers(table, sets, min_set_size=5)
     ora = result.tables["over_representation"]
     for _, row in ora.sample(10, random_state=1).iterrows():
         members = np.isin(features, sets[row["set"]])
@@ -84,7 +84,7 @@ def test_set_size_limits_and_exclusions_are_counted():
     features = [f"G{i}" for i in range(50)]
     table = _marker_table(features, ["x"], [list(range(50))], [np.arange(50) < 10])
     sets = {"ok": features[:8], "small": features[:2], "large": features, "elsewhere": ["Z1", "Z2"]}
-    result = enrich_markers(table, sets, min_size=3, max_size=40)
+    result = enrich_markers(table, sets, min_set_size=3, max_set_size=40)
     assert result.summary["n_sets_tested"] == 1
     excluded = result.tables["excluded_sets"].set_index("set")["reason"]
     assert excluded["elsewhere"] == "no overlap with the measured features"

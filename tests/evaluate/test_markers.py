@@ -60,7 +60,7 @@ def test_mann_whitney_equals_scipy_feature_by_feature(ties):
 
 def test_welch_option_equals_scipy_ttest():
     grouping, data = _modality(seed=1)
-    table = find_markers(grouping, data, test="welch").tables["markers"]
+    table = find_markers(grouping, data, marker_test="welch").tables["markers"]
     ours = table[table["group"] == "a"].set_index("feature")
     in_group = (grouping == "a").to_numpy()
     for feature in data.columns[:10]:
@@ -71,7 +71,7 @@ def test_welch_option_equals_scipy_ttest():
 
 def test_top_markers_effects_and_adjustment():
     grouping, data = _modality(seed=2)
-    result = find_markers(grouping, data, top_n=3)
+    result = find_markers(grouping, data, markers_per_subtype=3)
     table = result.tables["markers"]
     b = table[table["group"] == "b"].set_index("feature")
     in_group = (grouping == "b").to_numpy()
@@ -93,7 +93,7 @@ def test_unmeasured_patients_dropped_and_gaps_rejected():
     with pytest.raises(InputError, match="modality 'rna', row 'P10', column 'F3': found a missing value"):
         find_markers(grouping, data, modality="rna")
     with pytest.raises(InputError, match="expected one of mann_whitney, welch"):
-        find_markers(grouping, data.iloc[:, :3].dropna(), test="t")
+        find_markers(grouping, data.iloc[:, :3].dropna(), marker_test="t")
 
 
 def test_a_group_measured_once_is_said_untestable_in_words():

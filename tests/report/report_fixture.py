@@ -146,11 +146,11 @@ def make_results(modality_names=("rna", "methylation"), feature_prefix="FX", tit
         ],
         "parameters": {
             "seed": 20261201,
-            "graph": {"rule": "intersection", "neighbours": 10, "kernel": "scaled_exponential"},
-            "factorization": {"graph_weight": 0.5, "restarts": 3, "max_iter": 200},
-            "resampling": {"resamples": 20, "fraction": 0.8, "backend": "serial"},
+            "graph": {"rule": "intersection", "n_neighbours": 10, "kernel": "scaled_exponential"},
+            "factorization": {"graph_weight": 0.5, "n_restarts": 3, "max_iter": 200},
+            "resampling": {"n_resamples": 20, "fraction": 0.8, "backend": "serial"},
             "subtypes": {"counts": counts, "pac_window": [0.1, 0.9], "min_size": 10},
-            "evaluation": {"permutations": 1000, "marker_test": "mannwhitney", "covariates": ["age_years"]},
+            "evaluation": {"n_permutations": 1000, "marker_test": "mannwhitney", "covariates": ["age_years"]},
             "modalities": [
                 {"name": name, "weight": 1.0, "kind": "counts" if i == 0 else "beta", "prior_count": 0.5,
                  "beta_to_m": True, "quantile_normalise": False, "max_missing_fraction": 0.2, "min_variance": 1e-8,

@@ -45,10 +45,10 @@ counts = [2, 3]
 min_size = 5
 
 [resampling]
-resamples = 4
+n_resamples = 4
 
 [evaluation]
-permutations = 100
+n_permutations = 100
 markers_per_subtype = 5
 gene_sets = "sets.tsv"
 min_set_size = 3
@@ -111,6 +111,6 @@ def _check_methods_against_the_run(run, page):
         assert {"median": "imputed by the feature median", "knn": "nearest patients",
                 "none": "not imputed"}[modality["impute"]] in steps
     graph = results["parameters"]["graph"]
-    assert f"keeping {graph['neighbours']} neighbours per patient" in methods
-    assert f"{results['parameters']['resampling']['resamples']} resamples" in methods
+    assert f"keeping {graph['n_neighbours']} neighbours per patient" in methods
+    assert f"{results['parameters']['resampling']['n_resamples']} resamples" in methods
     assert f"seed {results['parameters']['seed']}" in methods

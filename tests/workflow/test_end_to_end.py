@@ -36,7 +36,7 @@ FILES = {
 TABLES = ["assignments.tsv", "rank_selection.tsv", "survival.tsv", "clinical.tsv", "enrichment.tsv", "results.json"]
 
 
-def small_workflow(cohort: Path, formats: str = "[]", permutations: int = 200) -> str:
+def small_workflow(cohort: Path, formats: str = "[]", n_permutations: int = 200) -> str:
     modalities = "".join(
         f'\n[[modality]]\nname = "{name}"\npath = "{cohort / file}"\nkind = "{kind}"\ntop_features = 300\n'
         for name, (file, kind) in FILES.items()
@@ -50,18 +50,18 @@ event_column = "os_event"
 {modalities}
 [factorization]
 graph_weight = 0.3
-restarts = 1
+n_restarts = 1
 max_iter = 150
 
 [subtypes]
 counts = [3, 4, 5]
 
 [resampling]
-resamples = 8
+n_resamples = 8
 
 [evaluation]
 covariates = ["age_years"]
-permutations = {permutations}
+n_permutations = {n_permutations}
 gene_sets = "{cohort / 'gene_sets.tsv'}"
 
 [report]
@@ -177,7 +177,7 @@ def test_finished_run_is_not_overwritten_and_one_change_reruns_only_its_stages(f
     assert (finished / "assignments.tsv").read_bytes() == before
 
     changed = tmp_path / "changed.toml"
-    changed.write_text(small_workflow(cohort, permutations=300))
+    changed.write_text(small_workflow(cohort, n_permutations=300))
     copy = tmp_path / "copy"
     subprocess.run(["cp", "-r", str(finished), str(copy)], check=True)
     assert main(["run", str(changed), "--out", str(copy), "--quiet", "--overwrite"]) == 0
@@ -217,7 +217,7 @@ def test_evaluate_a_given_grouping_without_modalities_and_compare(finished, coho
     flow = tmp_path / "outcome.toml"
     flow.write_text(
         f'[cohort]\nclinical = "{cohort / "clinical.tsv"}"\ntime_column = "os_months"\nevent_column = "os_event"\n'
-        "[evaluation]\npermutations = 100\n[report]\nformats = []\n"
+        "[evaluation]\nn_permutations = 100\n[report]\nformats = []\n"
     )
     groups = cohort / "planted_subtypes.tsv"
     assert main(["evaluate", str(flow), "--groups", str(groups), "--out", str(tmp_path / "planted"), "--quiet"]) == 0

@@ -111,7 +111,7 @@ def _kill_once_resamples_are_kept(command: list[str], work_glob: str, staging: P
 
 def test_a_sweep_killed_midway_resumes_after_its_finished_resamples_byte_identical(tmp_path, capsys):
     flow = write_synthetic_inputs(tmp_path / "cohort", ("rna", "protein"), formats="[]")
-    flow.write_text(flow.read_text().replace("resamples = 4", "resamples = 16"))
+    flow.write_text(flow.read_text().replace("n_resamples = 4", "n_resamples = 16"))
     assert run(flow, tmp_path / "whole") == 0
     out = tmp_path / "resumed"
     command = [sys.executable, "-m", "strataweave.cli", "run", str(flow), "--out", str(out), "--quiet"]
@@ -323,7 +323,7 @@ def test_bad_input_exits_2_in_one_line_and_leaves_no_folder(copy_of, capsys, dam
 
 def test_a_second_run_into_a_busy_folder_exits_2_and_a_dead_holder_is_taken_over(copy_of, capsys):
     flow = copy_of.parent / "flow.toml"
-    flow.write_text(flow.read_text().replace("resamples = 4", "resamples = 16"))
+    flow.write_text(flow.read_text().replace("n_resamples = 4", "n_resamples = 16"))
     out = copy_of.parent / "busy"
     command = [sys.executable, "-m", "strataweave.cli", "run", str(flow), "--out", str(out), "--quiet"]
     staging = copy_of.parent / ".busy.running"

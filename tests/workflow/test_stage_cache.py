@@ -74,10 +74,10 @@ def test_result_counts_as_finished_only_with_its_json(tmp_path) -> None:
 
 
 def test_keys_depend_on_parameters_and_upstream() -> None:
-    base = stage_key("graphs", {"neighbours": 10}, {"prepare": "abc"})
-    assert base == stage_key("graphs", {"neighbours": 10}, {"prepare": "abc"})
-    assert base != stage_key("graphs", {"neighbours": 11}, {"prepare": "abc"})
-    assert base != stage_key("graphs", {"neighbours": 10}, {"prepare": "abd"})
+    base = stage_key("graphs", {"n_neighbours": 10}, {"prepare": "abc"})
+    assert base == stage_key("graphs", {"n_neighbours": 10}, {"prepare": "abc"})
+    assert base != stage_key("graphs", {"n_neighbours": 11}, {"prepare": "abc"})
+    assert base != stage_key("graphs", {"n_neighbours": 10}, {"prepare": "abd"})
 
 
 class _Quiet:

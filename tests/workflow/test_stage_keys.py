@@ -24,18 +24,18 @@ def _changed(keys: dict, other: dict) -> list[str]:
 
 def test_where_the_resamples_run_changes_no_key(tiny_files: Path) -> None:
     flow = load_workflow(tiny_files / "flow.toml")
-    elsewhere = dataclasses.replace(flow, resampling=dataclasses.replace(flow.resampling, backend="processes", jobs=2))
+    elsewhere = dataclasses.replace(flow, resampling=dataclasses.replace(flow.resampling, backend="processes", n_jobs=2))
     assert _keys(flow) == _keys(elsewhere)
 
 
 def test_each_setting_reruns_its_stage_and_what_follows(tiny_files: Path) -> None:
     flow = load_workflow(tiny_files / "flow.toml")
     base = _keys(flow)
-    graph = dataclasses.replace(flow, graph=dataclasses.replace(flow.graph, neighbours=3))
+    graph = dataclasses.replace(flow, graph=dataclasses.replace(flow.graph, n_neighbours=3))
     assert _changed(base, _keys(graph)) == ["graphs", "sweep", "select", "final_fit", "evaluate"]
     count = dataclasses.replace(flow, subtypes=dataclasses.replace(flow.subtypes, use_count=3))
     assert _changed(base, _keys(count)) == ["select", "final_fit", "evaluate"]
-    evaluation = dataclasses.replace(flow, evaluation=dataclasses.replace(flow.evaluation, permutations=5))
+    evaluation = dataclasses.replace(flow, evaluation=dataclasses.replace(flow.evaluation, n_permutations=5))
     assert _changed(base, _keys(evaluation)) == ["evaluate"]
     # the default search (auto) may be approximate, which the seed steers; an exact graph ignores the seed
     assert _changed(base, _keys(flow.with_overrides(seed=99))) == ["graphs", "sweep", "select", "final_fit", "evaluate"]

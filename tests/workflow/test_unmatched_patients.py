@@ -32,7 +32,7 @@ def _write_inputs(folder: Path, show_patient_ids: bool) -> Path:
     flag = "true" if show_patient_ids else "false"
     (folder / "flow.toml").write_text(
         '[cohort]\nclinical = "clinical.tsv"\n[[modality]]\nname = "rna"\npath = "rna.tsv"\nkind = "log_expression"\n'
-        f"[evaluation]\nmonte_carlo = 100\n[report]\nformats = []\nshow_patient_ids = {flag}\n"
+        f"[evaluation]\nn_monte_carlo = 100\n[report]\nformats = []\nshow_patient_ids = {flag}\n"
     )
     return folder / "flow.toml"
 

@@ -3,12 +3,14 @@
 from __future__ import annotations
 
 import dataclasses
+import inspect
 from pathlib import Path
 
 import pytest
 
+import strataweave as sw
 from strataweave import InputError
-from strataweave.workflow.config import SECTIONS, ModalitySettings, load_workflow, parse_workflow
+from strataweave.workflow.config import RENAMED_KEYS, SECTIONS, ModalitySettings, load_workflow, parse_workflow
 
 from workflow_files import MINIMAL
 
@@ -42,8 +44,8 @@ def test_single_count_and_overrides(tiny_files: Path) -> None:
     flow = parse_workflow(text, tiny_files / "flow.toml")
     assert flow.subtypes.counts == (3,)
     changed = flow.with_overrides(seed=11, jobs=2)
-    assert (changed.seed, changed.resampling.jobs) == (11, 2)
-    assert (flow.seed, flow.resampling.jobs) == (0, 0)  # the original is untouched (0: every core)
+    assert (changed.seed, changed.resampling.n_jobs) == (11, 2)
+    assert (flow.seed, flow.resampling.n_jobs) == (0, 0)  # the original is untouched (0: every core)
 
 
 def test_evaluate_workflow_may_have_no_modalities(tiny_files: Path) -> None:
@@ -63,7 +65,7 @@ def test_modality_keys_are_all_optional_except_name_path_kind() -> None:
     "addition, key",
     [
         ("\n[graph]\nneighbors = 5\n", "graph.neighbors"),
-        ("\n[graph]\nneighbours = 1\n", "graph.neighbours"),
+        ("\n[graph]\nn_neighbours = 1\n", "graph.n_neighbours"),
         ("\n[graph]\nneighbour_search = \"fast\"\n", "graph.neighbour_search"),
         ("\n[subtypes]\ncounts = [1, 2]\n", "subtypes.counts"),
         ("\n[subtypes]\ncounts = [2, 3]\nuse_count = 5\n", "subtypes.use_count"),
@@ -84,6 +86,43 @@ def test_neighbour_search_is_read_with_auto_by_default(tiny_files: Path) -> None
     assert parse_workflow(text, tiny_files / "flow.toml").graph.neighbour_search == "approximate"
     with pytest.raises(InputError, match=r"'graph\.neighbour_search': found 'fast', expected one of .*auto.*exact.*approximate"):
         parse_workflow(MINIMAL + '\n[graph]\nneighbour_search = "fast"\n', tiny_files / "flow.toml")
+
+
+def test_a_renamed_key_is_unknown_and_its_error_names_the_new_key(tiny_files: Path) -> None:
+    with pytest.raises(InputError) as caught:
+        parse_workflow(MINIMAL + "\n[graph]\nneighbours = 10\n", tiny_files / "flow.toml")
+    message = str(caught.value)
+    assert "unknown key 'graph.neighbours' (it is now 'graph.n_neighbours'), expected one of: " in message
+    assert "\n" not in message
+    for section, renamed in RENAMED_KEYS.items():
+        keys = {spec.name for spec in dataclasses.fields(SECTIONS[section])}
+        assert set(renamed.values()) <= keys and not set(renamed) & keys, section
+
+
+#: the Python door's estimators (and readers) that each section's keys feed, under the same names
+FEEDS = {
+    "cohort": [sw.read_clinical, sw.SurvivalComparison],
+    "modality": [sw.Preprocessor, sw.read_matrix],
+    "graph": [sw.GraphFusion],
+    "factorization": [sw.SubtypeSweep],
+    "subtypes": [sw.SubtypeSweep],
+    "resampling": [sw.SubtypeSweep],
+    "evaluation": [sw.SurvivalComparison, sw.ClinicalAssociation, sw.MarkerSearch, sw.GeneSetEnrichment],
+}
+#: keys that are no estimator's parameter: files and choices of the workflow itself, and the
+#: per-modality weight (one entry of SubtypeSweep's modality_weights)
+WORKFLOW_ONLY = {"cohort.clinical", "cohort.time_unit", "modality.weight", "subtypes.use_count",
+                 "evaluation.gene_sets", "evaluation.gene_set_format", "evaluation.gene_set_modality"}
+
+
+def test_every_key_is_named_as_the_python_parameter_it_feeds() -> None:
+    for section, cls in [*SECTIONS.items(), ("modality", ModalitySettings)]:
+        if section == "report":
+            continue
+        parameters = {name for fed in FEEDS[section] for name in inspect.signature(fed).parameters}
+        for spec in dataclasses.fields(cls):
+            key = f"{section}.{spec.name}"
+            assert (spec.name in parameters) != (key in WORKFLOW_ONLY), key
 
 
 def test_error_in_a_modality_names_it(tiny_files: Path) -> None:
@@ -120,16 +159,16 @@ def test_workflow_defaults_are_the_numeric_layers_defaults() -> None:
     from strataweave.workflow.config import EvaluationSettings, FactorizationSettings, GraphSettings
 
     pairs = [
-        (GraphSettings, "neighbours", fuse_modalities, "n_neighbours"),
-        (FactorizationSettings, "graph_weight", JointNMF, "graph_weight"),
-        (FactorizationSettings, "tolerance", JointNMF, "tol"),
-        (FactorizationSettings, "max_iter", JointNMF, "max_iter"),
-        (EvaluationSettings, "permutations", evaluate_survival, "n_permutations"),
-        (EvaluationSettings, "monte_carlo", associate_clinical, "n_monte_carlo"),
+        (GraphSettings, fuse_modalities, "n_neighbours"),
+        (FactorizationSettings, JointNMF, "graph_weight"),
+        (FactorizationSettings, JointNMF, "tol"),
+        (FactorizationSettings, JointNMF, "max_iter"),
+        (EvaluationSettings, evaluate_survival, "n_permutations"),
+        (EvaluationSettings, associate_clinical, "n_monte_carlo"),
     ]
-    for section, key, function, parameter in pairs:
+    for section, function, key in pairs:
         workflow_default = {f.name: f.default for f in dataclasses.fields(section)}[key]
-        assert workflow_default == inspect.signature(function).parameters[parameter].default, key
+        assert workflow_default == inspect.signature(function).parameters[key].default, key
 
 
 def test_an_integer_bound_is_written_in_full(tiny_files: Path) -> None:

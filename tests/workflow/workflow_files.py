@@ -38,7 +38,7 @@ LAYERS = {  # name: (kind, orientation of the synthetic cohort's table)
 SURVIVAL = ("os_months", "os_event")
 SETTINGS = """
 [factorization]
-restarts = 1
+n_restarts = 1
 max_iter = 100
 
 [subtypes]
@@ -46,12 +46,12 @@ counts = [2, 3]
 min_size = 3
 {use_count}
 [resampling]
-resamples = 4
-restarts = 1
+n_resamples = 4
+resample_restarts = 1
 
 [evaluation]
-permutations = 50
-monte_carlo = 100
+n_permutations = 50
+n_monte_carlo = 100
 
 [report]
 formats = {formats}

@@ -41,13 +41,13 @@ class SurvivalComparison(_Evaluator):
     _summary_table = "medians"
 
     def __init__(self, time_column: str = "time", event_column: str = "event", *, covariates=(), strata=None,
-                 horizon: float | None = None, n_permutations: int = 10_000, min_group_size: int = 5,
+                 rmst_horizon: float | None = None, n_permutations: int = 10_000, min_group_size: int = 5,
                  min_events: int = 10, events_per_term: int = 10, alpha: float = 0.05, random_state=None):
         self.time_column = time_column
         self.event_column = event_column
         self.covariates = covariates
         self.strata = strata
-        self.horizon = horizon
+        self.rmst_horizon = rmst_horizon
         self.n_permutations = n_permutations
         self.min_group_size = min_group_size
         self.min_events = min_events
@@ -84,9 +84,10 @@ class ClinicalAssociation(_Evaluator):
 
     _summary_table = "association"
 
-    def __init__(self, variables=None, *, categorical=(), n_monte_carlo: int = 10_000, random_state=None):
-        self.variables = variables
-        self.categorical = categorical
+    def __init__(self, clinical_columns=None, *, categorical_columns=(), n_monte_carlo: int = 10_000,
+                 random_state=None):
+        self.clinical_columns = clinical_columns
+        self.categorical_columns = categorical_columns
         self.n_monte_carlo = n_monte_carlo
         self.random_state = random_state
 
@@ -106,10 +107,10 @@ class ClinicalAssociation(_Evaluator):
 class MarkerSearch(_Evaluator):
     """Features that mark each group against the rest, per modality (normalised scale)."""
 
-    def __init__(self, test: str = "mann_whitney", top_n: int = 20, fdr: float = 0.05):
-        self.test = test
-        self.top_n = top_n
-        self.fdr = fdr
+    def __init__(self, marker_test: str = "mann_whitney", markers_per_subtype: int = 20, marker_fdr: float = 0.05):
+        self.marker_test = marker_test
+        self.markers_per_subtype = markers_per_subtype
+        self.marker_fdr = marker_fdr
 
     def fit(self, grouping: pd.Series, views: Cohort | dict) -> MarkerSearch:
         """`views`: a Cohort (its normalised views) or a dict of patients x features tables."""
@@ -118,7 +119,8 @@ class MarkerSearch(_Evaluator):
 
     @property
     def summary(self) -> pd.DataFrame:
-        """The top markers of each group in every modality (top_n per group, adjusted p below fdr)."""
+        """The top markers of each group in every modality (markers_per_subtype per group, adjusted p
+        below marker_fdr)."""
         rows = [pd.DataFrame(part["rows"]).assign(modality=name) for name, part in fitted(self, "summary_").items()]
         return pd.concat(rows, ignore_index=True) if rows else pd.DataFrame()
 
@@ -140,11 +142,12 @@ class GeneSetEnrichment(_Evaluator):
 
     _summary_table = "over_representation"
 
-    def __init__(self, fdr: float = 0.05, min_size: int = 5, max_size: int = 500, top_n: int = 10):
-        self.fdr = fdr
-        self.min_size = min_size
-        self.max_size = max_size
-        self.top_n = top_n
+    def __init__(self, marker_fdr: float = 0.05, min_set_size: int = 5, max_set_size: int = 500,
+                 sets_per_subtype: int = 10):
+        self.marker_fdr = marker_fdr
+        self.min_set_size = min_set_size
+        self.max_set_size = max_set_size
+        self.sets_per_subtype = sets_per_subtype
 
     def fit(self, markers: MarkerSearch | pd.DataFrame, gene_sets: dict, modality: str | None = None) -> GeneSetEnrichment:
         """`markers`: a fitted MarkerSearch (its `modality`, default the first) or its long table."""

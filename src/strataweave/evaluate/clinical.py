@@ -83,18 +83,18 @@ def _continuous_row(labels, values, groups) -> tuple[dict, pd.DataFrame]:
 def associate_clinical(
     grouping: pd.Series,
     clinical: pd.DataFrame,
-    variables: list[str] | None = None,
-    categorical: tuple[str, ...] | list[str] = (),
+    clinical_columns: list[str] | None = None,
+    categorical_columns: tuple[str, ...] | list[str] = (),
     n_monte_carlo: int = 10_000,
     random_state=None,
 ) -> Evaluation:
-    """One association test per clinical variable (all columns unless `variables` is given).
+    """One association test per clinical variable (all columns unless `clinical_columns` is given).
 
-    Text and boolean columns, and those named in `categorical`, are treated as categorical.
+    Text and boolean columns, and those named in `categorical_columns`, are treated as categorical.
     """
     labelled = check_grouping(grouping)
-    variables = list(clinical.columns) if variables is None else list(variables)
-    for name in [*variables, *categorical]:
+    variables = list(clinical.columns) if clinical_columns is None else list(clinical_columns)
+    for name in [*variables, *categorical_columns]:
         if name not in clinical.columns:
             raise InputError(f"clinical table: no column {name!r}, expected it as a clinical variable to test")
     labels_all, table = align(labelled, clinical, "clinical table")
@@ -104,7 +104,7 @@ def associate_clinical(
     for name, seed in zip(variables, seeds):
         known = table[name].notna().to_numpy()
         labels, values = labels_all[known], table[name][known]
-        if _is_categorical(values, name, categorical):
+        if _is_categorical(values, name, categorical_columns):
             row, detail = _categorical_row(labels, values, groups, n_monte_carlo, seed)
             counts.append(detail.assign(variable=name))
         else:

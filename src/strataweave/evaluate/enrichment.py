@@ -127,20 +127,22 @@ def _top(table: pd.DataFrame, fdr: float, top_n: int) -> pd.DataFrame:
 def enrich_markers(
     markers: pd.DataFrame,
     gene_sets: Mapping[str, Iterable[str]],
-    fdr: float = 0.05,
-    min_size: int = 5,
-    max_size: int = 500,
-    top_n: int = 10,
+    marker_fdr: float = 0.05,
+    min_set_size: int = 5,
+    max_set_size: int = 500,
+    sets_per_subtype: int = 10,
 ) -> Evaluation:
     """Enrichment of each group's markers (the table made by find_markers) in `gene_sets`.
 
-    Selected markers of a group: adjusted p below `fdr` and higher in the group than in the rest.
-    Sets are restricted to measured features; sets too small, too large or without overlap are
-    listed in the 'excluded_sets' table and counted in the summary.
+    Selected markers of a group: adjusted p below `marker_fdr` and higher in the group than in the
+    rest. Sets are restricted to measured features; sets with fewer than `min_set_size` or more than
+    `max_set_size` measured members, or without overlap, are listed in the 'excluded_sets' table
+    and counted in the summary. The summary lists up to `sets_per_subtype` sets per group with
+    adjusted p below `marker_fdr`.
     """
     groups, universe, scores, difference, p_adjusted = _marker_matrices(markers)
-    membership, names, excluded = set_membership(gene_sets, universe, min_size, max_size)
-    selected = ((difference.to_numpy() > 0) & (p_adjusted.to_numpy() < fdr))
+    membership, names, excluded = set_membership(gene_sets, universe, min_set_size, max_set_size)
+    selected = ((difference.to_numpy() > 0) & (p_adjusted.to_numpy() < marker_fdr))
     over_representation = _over_representation(membership, names, groups, selected)
     rank_test = _rank_test(membership, names, groups, scores.to_numpy(dtype=float))
     summary = {
@@ -149,10 +151,10 @@ def enrich_markers(
         "n_sets_excluded": len(excluded),
         "excluded_by_reason": excluded["reason"].value_counts().to_dict(),
         "n_selected_markers": {str(g): int(n) for g, n in zip(groups, selected.sum(axis=0))},
-        "fdr": fdr,
-        "rows": _top(over_representation, fdr, top_n).rename(columns={"group": "subtype", "set": "gene_set"})
-        .astype({"subtype": str}),
-        "rank_test_rows": _top(rank_test[rank_test["auc"] > 0.5], fdr, top_n)
+        "fdr": marker_fdr,
+        "rows": _top(over_representation, marker_fdr, sets_per_subtype)
+        .rename(columns={"group": "subtype", "set": "gene_set"}).astype({"subtype": str}),
+        "rank_test_rows": _top(rank_test[rank_test["auc"] > 0.5], marker_fdr, sets_per_subtype)
         .rename(columns={"group": "subtype", "set": "gene_set"}).astype({"subtype": str}),
     }
     return Evaluation(

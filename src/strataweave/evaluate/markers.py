@@ -81,28 +81,30 @@ def find_markers(
     grouping: pd.Series,
     data: pd.DataFrame,
     modality: str = "modality",
-    test: str = "mann_whitney",
-    top_n: int = 20,
-    fdr: float = 0.05,
+    marker_test: str = "mann_whitney",
+    markers_per_subtype: int = 20,
+    marker_fdr: float = 0.05,
 ) -> Evaluation:
     """Markers of each group against the rest on one modality (patients x features, normalised scale).
 
-    Patients not measured on the modality (all-NaN rows) are dropped and counted.
+    `marker_test` ranks each feature; up to `markers_per_subtype` features higher in the group,
+    with adjusted p below `marker_fdr`, are the group's top markers. Patients not measured on the
+    modality (all-NaN rows) are dropped and counted.
     """
     labelled = check_grouping(grouping)
     measured = _present_patients(data, modality)
     labels, measured = align(labelled, measured, f"modality {modality!r}")
     groups = group_order(labels)
-    table = marker_table(labels, measured, groups, test)
-    top = top_markers(table, top_n, fdr)
+    table = marker_table(labels, measured, groups, marker_test)
+    top = top_markers(table, markers_per_subtype, marker_fdr)
     summary = {
         "modality": modality,
-        "test": test,
+        "test": marker_test,
         "n_patients": len(labels),
         "n_features": measured.shape[1],
         "n_excluded_patients": int(len(labelled) - len(labels)),
-        "fdr": fdr,
-        "n_significant_up": {str(g): int(((table["group"] == g) & (table["difference"] > 0) & (table["p_adjusted"] < fdr)).sum()) for g in groups},
+        "fdr": marker_fdr,
+        "n_significant_up": {str(g): int(((table["group"] == g) & (table["difference"] > 0) & (table["p_adjusted"] < marker_fdr)).sum()) for g in groups},
         "rows": pd.DataFrame(
             {
                 "subtype": top["group"].astype(str),

@@ -126,7 +126,7 @@ def evaluate_survival(
     event_column: str = "event",
     covariates: tuple[str, ...] | list[str] = (),
     strata: str | None = None,
-    horizon: float | None = None,
+    rmst_horizon: float | None = None,
     n_permutations: int = 10_000,
     min_group_size: int = 5,
     min_events: int = 10,
@@ -138,7 +138,7 @@ def evaluate_survival(
     """Kaplan-Meier curves, medians, log-rank (asymptotic, permutation, pairwise, stratified), Cox, RMST.
 
     `min_events` guards the log-rank tests; `events_per_term` (10 is common practice) guards the
-    Cox model. `horizon` defaults to the shortest of the groups' longest follow-up times.
+    Cox model. `rmst_horizon` defaults to the shortest of the groups' longest follow-up times.
     """
     labelled = check_grouping(grouping)
     outcome = read_outcome(clinical, time_column, event_column)
@@ -159,7 +159,7 @@ def evaluate_survival(
     medians = kaplan_meier.median_table(fitted)
     ticks = kaplan_meier.nice_ticks(float(time.max()))
     at_risk = kaplan_meier.at_risk_at(time, labels, groups, ticks)
-    horizon = kaplan_meier.default_horizon(time, labels) if horizon is None else float(horizon)
+    horizon = kaplan_meier.default_horizon(time, labels) if rmst_horizon is None else float(rmst_horizon)
     per_group_rmst, rmst_differences = rmst.rmst_tables(time, event, labels, groups, horizon, alpha)
 
     cox_terms = cox_fit.terms if cox_fit else pd.DataFrame(columns=["term", "hazard_ratio", "ci_lower", "ci_upper", "p_value"])

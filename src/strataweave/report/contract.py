@@ -350,9 +350,9 @@ RESULTS: dict[str, Entry] = {
     "parameters": Entry(
         "mapping",
         "parameters actually used, nested by workflow section; the methods paragraph reads "
-        "seed, graph.{rule,neighbours,kernel,metric}, factorization.{graph_weight,restarts,max_iter}, "
-        "resampling.{resamples,fraction,backend}, subtypes.{counts,pac_window,min_size,core_threshold}, "
-        "evaluation.{permutations,marker_test,rmst_horizon,covariates,strata} when present",
+        "seed, graph.{rule,n_neighbours,kernel,metric}, factorization.{graph_weight,n_restarts,max_iter}, "
+        "resampling.{n_resamples,fraction,backend}, subtypes.{counts,pac_window,min_size,core_threshold}, "
+        "evaluation.{n_permutations,marker_test,rmst_horizon,covariates,strata} when present",
         required=False,
     ),
 }

@@ -129,12 +129,12 @@ def methods_paragraph(results: dict[str, Any], version: str | None = None) -> tu
             + _search_phrase(graph, cite))
     if results.get("selection"):
         selection = results["selection"]
-        restarts = _get(p, "factorization.restarts")
+        restarts = _get(p, "factorization.n_restarts")
         settings = [_phrase("graph weight {w}", w=_get(p, "factorization.graph_weight")),
                     _phrase("{r} restart" + ("" if restarts == 1 else "s"), r=restarts)]
         settings_text = ", ".join(x for x in settings if x)
         weight = f" ({settings_text})" if settings_text else ""
-        resamples = _phrase("{n} resamples of {f} of the patients", n=_get(p, "resampling.resamples"),
+        resamples = _phrase("{n} resamples of {f} of the patients", n=_get(p, "resampling.n_resamples"),
                             f=_get(p, "resampling.fraction")) or "resamples of the patients"
         window = _get(p, "subtypes.pac_window")
         pac = _phrase(" with window {lo}-{hi}", lo=window[0], hi=window[1]) if isinstance(window, list) else ""
@@ -163,7 +163,7 @@ def methods_paragraph(results: dict[str, Any], version: str | None = None) -> tu
                          f"{cite('hubert1985')} and normalised mutual information.")
     if results.get("survival"):
         permutations = _phrase(" and by {n} label permutations", n=results["survival"]["logrank"].get("permutations")
-                               or _get(p, "evaluation.permutations"))
+                               or _get(p, "evaluation.n_permutations"))
         covariates = _get(p, "evaluation.covariates")
         adjusted = f", adjusted for {listing([column_words(str(c)) for c in covariates])}" if covariates else ""
         sentences.append(

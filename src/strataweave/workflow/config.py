@@ -277,11 +277,11 @@ class ModalitySettings:
 class GraphSettings:
     """[graph]: per-modality patient-similarity graphs and the rule that fuses them."""
 
-    neighbours: int = key(integer(2), default_of(fuse_modalities, "n_neighbours"))
+    n_neighbours: int = key(integer(2), default_of(fuse_modalities, "n_neighbours"))
     metric: str = key(choice(*METRICS), default_of(fuse_modalities, "metric"))
     kernel: str = key(choice(*KERNELS), default_of(fuse_modalities, "kernel"))
-    fusion: str = key(choice(*RULES), default_of(fuse_modalities, "rule"))
-    quorum: int | None = key(integer(1), None, doc="modalities that must agree (fusion = quorum)")
+    rule: str = key(choice(*RULES), default_of(fuse_modalities, "rule"))
+    quorum: int | None = key(integer(1), None, doc="modalities that must agree (rule = quorum)")
     neighbour_search: str = key(
         choice(*SEARCHES), default_of(fuse_modalities, "neighbour_search"),
         doc=f"auto: approximate (pynndescent, seeded from the run's seed) for a modality of more than "
@@ -294,12 +294,12 @@ class FactorizationSettings:
     """[factorization]: the graph-regularised joint NMF."""
 
     graph_weight: float = key(number(minimum=0), default_of(JointNMF, "graph_weight"))
-    restarts: int = key(
+    n_restarts: int = key(
         integer(1), SweepSettings.resample_restarts,
         doc="full-data fits per count, the lowest objective wins; as many as each resample has",
     )
     max_iter: int = key(integer(1), default_of(JointNMF, "max_iter"))
-    tolerance: float = key(number(above=0), default_of(JointNMF, "tol"))
+    tol: float = key(number(above=0), default_of(JointNMF, "tol"))
     init: str = key(choice(*INIT_METHODS), default_of(JointNMF, "init"))
     start_from: str = key(
         choice(*START_FROM), SweepSettings.start_from,
@@ -338,13 +338,13 @@ class SubtypeSettings:
 class ResamplingSettings:
     """[resampling]: the consensus resamples and where they run."""
 
-    resamples: int = key(integer(2), SweepSettings.n_resamples)
+    n_resamples: int = key(integer(2), SweepSettings.n_resamples)
     fraction: float = key(number(maximum=1, above=0), SweepSettings.fraction, doc="share of patients per resample")
     feature_fraction: float = key(number(maximum=1, above=0), SweepSettings.feature_fraction, doc="share of features per resample")
-    restarts: int = key(integer(1), SweepSettings.resample_restarts, doc="NMF restarts per resample")
+    resample_restarts: int = key(integer(1), SweepSettings.resample_restarts, doc="NMF restarts per resample")
     warm_start: bool = key(flag(), SweepSettings.warm_start, doc="start resamples from the full-data factors")
     backend: str = key(choice(*BACKENDS), "processes", doc="results are the same on each")
-    jobs: int = key(integer(0), 0, doc="workers; 0 = every core this process may use")
+    n_jobs: int = key(integer(0), 0, doc="workers; 0 = every core this process may use")
     scheduler: str | None = key(text(), None, doc="Dask scheduler address (backend = dask)")
 
 
@@ -360,21 +360,21 @@ class EvaluationSettings:
     categorical_columns: tuple[str, ...] = key(
         list_of(text(), "a list of column names"), (), doc="numeric columns to treat as categories"
     )
-    monte_carlo: int = key(
+    n_monte_carlo: int = key(
         integer(100), default_of(associate_clinical, "n_monte_carlo"), doc="draws for exact p-values of sparse tables"
     )
     rmst_horizon: float | None = key(number(above=0), None)
-    permutations: int = key(integer(0), default_of(evaluate_survival, "n_permutations"))
+    n_permutations: int = key(integer(0), default_of(evaluate_survival, "n_permutations"))
     min_group_size: int = key(integer(1), default_of(evaluate_survival, "min_group_size"))
-    marker_test: str = key(choice(*TESTS), default_of(find_markers, "test"))
-    marker_fdr: float = key(number(maximum=1, above=0), default_of(find_markers, "fdr"))
-    markers_per_subtype: int = key(integer(1), default_of(find_markers, "top_n"))
+    marker_test: str = key(choice(*TESTS), default_of(find_markers, "marker_test"))
+    marker_fdr: float = key(number(maximum=1, above=0), default_of(find_markers, "marker_fdr"))
+    markers_per_subtype: int = key(integer(1), default_of(find_markers, "markers_per_subtype"))
     gene_sets: Path | None = key(existing_file(), None)
     gene_set_format: str = key(choice("lines", "table"), "lines", doc="set, description, members / set, gene")
     gene_set_modality: str | None = key(text(), None, doc="modality whose markers are tested; omitted = first")
-    sets_per_subtype: int = key(integer(1), default_of(enrich_markers, "top_n"))
-    min_set_size: int = key(integer(1), default_of(enrich_markers, "min_size"))
-    max_set_size: int = key(integer(1), default_of(enrich_markers, "max_size"))
+    sets_per_subtype: int = key(integer(1), default_of(enrich_markers, "sets_per_subtype"))
+    min_set_size: int = key(integer(1), default_of(enrich_markers, "min_set_size"))
+    max_set_size: int = key(integer(1), default_of(enrich_markers, "max_set_size"))
 
 
 @dataclass(frozen=True)
@@ -397,6 +397,15 @@ SECTIONS = {
     "resampling": ResamplingSettings,
     "evaluation": EvaluationSettings,
     "report": ReportSettings,
+}
+
+#: Keys renamed to the name of the Python parameter they feed (issue 12), by section: old -> new.
+#: An old key is still an unknown key; its error names the new one.
+RENAMED_KEYS = {
+    "graph": {"neighbours": "n_neighbours", "fusion": "rule"},
+    "factorization": {"restarts": "n_restarts", "tolerance": "tol"},
+    "resampling": {"resamples": "n_resamples", "restarts": "resample_restarts", "jobs": "n_jobs"},
+    "evaluation": {"monte_carlo": "n_monte_carlo", "permutations": "n_permutations"},
 }
 
 
@@ -445,7 +454,7 @@ class Workflow:
         if jobs is not None:
             if jobs < 1:
                 raise InputError(f"--jobs: found {jobs}, expected an integer >= 1")
-            changed = dataclasses.replace(changed, resampling=dataclasses.replace(changed.resampling, jobs=jobs))
+            changed = dataclasses.replace(changed, resampling=dataclasses.replace(changed.resampling, n_jobs=jobs))
         return changed
 
 
@@ -461,8 +470,10 @@ def _parse_section(table: object, cls: type, where: str, source: str, base_dir: 
     known = {f.name: f for f in fields(cls)}
     for name in table:
         if name not in known:
+            renamed = RENAMED_KEYS.get(where, {}).get(name)
+            now = f" (it is now '{where}.{renamed}')" if renamed else ""
             raise InputError(
-                f"{source}: unknown key '{where}.{name}', expected one of: {', '.join(known)}"
+                f"{source}: unknown key '{where}.{name}'{now}, expected one of: {', '.join(known)}"
             )
     values = {}
     for name, spec in known.items():
@@ -500,10 +511,10 @@ def _check_combinations(flow: Workflow, source: str) -> None:
     if (cohort.time_column is None) != (cohort.event_column is None):
         given, missing = ("time_column", "event_column") if cohort.event_column is None else ("event_column", "time_column")
         raise InputError(f"{source}: key 'cohort.{missing}': missing, expected it together with 'cohort.{given}'")
-    if graph.fusion == "quorum" and graph.quorum is None:
-        raise InputError(f"{source}: key 'graph.quorum': missing, expected an integer when graph.fusion = 'quorum'")
-    if graph.quorum is not None and graph.fusion != "quorum":
-        raise InputError(f"{source}: key 'graph.quorum': found {graph.quorum}, expected it only with graph.fusion = 'quorum'")
+    if graph.rule == "quorum" and graph.quorum is None:
+        raise InputError(f"{source}: key 'graph.quorum': missing, expected an integer when graph.rule = 'quorum'")
+    if graph.quorum is not None and graph.rule != "quorum":
+        raise InputError(f"{source}: key 'graph.quorum': found {graph.quorum}, expected it only with graph.rule = 'quorum'")
     if graph.quorum is not None and flow.modalities and graph.quorum > len(flow.modalities):
         raise InputError(
             f"{source}: key 'graph.quorum': found {graph.quorum}, expected at most the {len(flow.modalities)} modalities"

@@ -142,7 +142,6 @@ def parameters(flow: Workflow) -> dict:
         name: dataclasses.asdict(getattr(flow, name))
         for name in ("graph", "factorization", "subtypes", "resampling", "evaluation")
     }
-    sections["graph"]["rule"] = flow.graph.fusion
     return plain(
         {
             "seed": flow.seed,

@@ -6,7 +6,7 @@ evaluate: load -> prepare (only with modalities) -> evaluate (of the grouping gi
 Each stage turns the results of the stages it reads into plain containers (dicts of
 pandas, numpy and scipy objects) that the stage cache stores without pickle; the numeric
 layers do the work. A stage's parameters hold exactly the settings its result depends on:
-where the resamples run (backend, jobs, scheduler) is left out because the results do not
+where the resamples run (backend, n_jobs, scheduler) is left out because the results do not
 depend on it, and input files enter by their sha256, not their path.
 
 Sections: load, prepare, graphs, sweep / select / final fit, the grouping a run reports,
@@ -181,9 +181,9 @@ def build_graph(flow: Workflow, prepared: dict, seed: int, feedback: Feedback) -
     with feedback.bar("patient graphs", 2 * len(views)) as progress:
         graph = fuse_modalities(
             views,
-            rule=settings.fusion,
+            rule=settings.rule,
             quorum=settings.quorum,
-            n_neighbours=settings.neighbours,
+            n_neighbours=settings.n_neighbours,
             metric=settings.metric,
             kernel=settings.kernel,
             neighbour_search=settings.neighbour_search,
@@ -203,7 +203,7 @@ def build_graph(flow: Workflow, prepared: dict, seed: int, feedback: Feedback) -
             "quorum": graph.parameters["quorum"],
             "rule_requested": graph.parameters["rule_requested"],
             "rule_evidence": graph.rule_evidence[list(EVIDENCE_COLUMNS)].to_dict(orient="records"),
-            "neighbours": settings.neighbours,
+            "neighbours": settings.n_neighbours,
             "neighbour_search": graph.parameters["neighbour_search"],
             "neighbour_search_requested": settings.neighbour_search,
             "approximate_above": graph.parameters["approximate_above"],
@@ -240,9 +240,9 @@ def factorization_options(flow: Workflow, prepared: dict) -> dict:
     options = {
         "graph_weight": settings.graph_weight,
         "max_iter": settings.max_iter,
-        "tol": settings.tolerance,
+        "tol": settings.tol,
         "init": settings.init,
-        "n_restarts": settings.restarts,
+        "n_restarts": settings.n_restarts,
     }
     weights = relative_modality_weights(list(prepared["views"].values()), [m.weight for m in flow.modalities])
     if weights is not None:
@@ -253,14 +253,14 @@ def factorization_options(flow: Workflow, prepared: dict) -> dict:
 def sweep_settings(flow: Workflow) -> SweepSettings:
     subtypes, resampling = flow.subtypes, flow.resampling
     return SweepSettings(
-        n_resamples=resampling.resamples,
+        n_resamples=resampling.n_resamples,
         fraction=resampling.fraction,
         feature_fraction=resampling.feature_fraction,
         pac_window=tuple(subtypes.pac_window),
         pac_tolerance=subtypes.pac_tolerance,
         min_size=subtypes.min_size,
         core_threshold=subtypes.core_threshold,
-        resample_restarts=resampling.restarts,
+        resample_restarts=resampling.resample_restarts,
         warm_start=resampling.warm_start,
         start_from=flow.factorization.start_from,
         labels_from=flow.subtypes.labels_from,
@@ -276,7 +276,7 @@ def run_sweep(
     views = dict(zip(prepared["views"], aligned_views(prepared)))
     profiles = {name: frame.reindex(prepared["patients"]) for name, frame in normalised_views(prepared).items()}
     parallel = ParallelSettings(
-        backend=flow.resampling.backend, n_jobs=flow.resampling.jobs or available_cores(),
+        backend=flow.resampling.backend, n_jobs=flow.resampling.n_jobs or available_cores(),
         scheduler=flow.resampling.scheduler,
         checkpoint=None if work is None else ResampleCheckpoint(work, feedback.say),
     )
@@ -517,7 +517,7 @@ def _enrichment_not_run(flow: Workflow, markers, reasons: dict[str, str]) -> str
 
 def _survival(flow: Workflow, clinical: pd.DataFrame, labels: pd.Series, seed, feedback: Feedback):
     settings = flow.evaluation
-    with feedback.bar("log-rank permutations", settings.permutations) as progress:
+    with feedback.bar("log-rank permutations", settings.n_permutations) as progress:
         return evaluate_survival(
             labels,
             clinical,
@@ -525,8 +525,8 @@ def _survival(flow: Workflow, clinical: pd.DataFrame, labels: pd.Series, seed, f
             event_column=flow.cohort.event_column,
             covariates=settings.covariates,
             strata=settings.strata,
-            horizon=settings.rmst_horizon,
-            n_permutations=settings.permutations,
+            rmst_horizon=settings.rmst_horizon,
+            n_permutations=settings.n_permutations,
             min_group_size=settings.min_group_size,
             random_state=seed,
             progress=progress,
@@ -549,7 +549,8 @@ def _markers(flow: Workflow, prepared: dict | None, labels: pd.Series) -> tuple[
         return None, reasons
     settings = flow.evaluation
     markers = markers_by_modality(
-        labels, testable, test=settings.marker_test, top_n=settings.markers_per_subtype, fdr=settings.marker_fdr
+        labels, testable, marker_test=settings.marker_test, markers_per_subtype=settings.markers_per_subtype,
+        marker_fdr=settings.marker_fdr,
     )
     return markers, reasons
 
@@ -573,9 +574,9 @@ def evaluate_grouping(
         association = associate_clinical(
             labels,
             clinical,
-            variables=variables,
-            categorical=settings.categorical_columns,
-            n_monte_carlo=settings.monte_carlo,
+            clinical_columns=variables,
+            categorical_columns=settings.categorical_columns,
+            n_monte_carlo=settings.n_monte_carlo,
             random_state=clinical_seed,
         )
         parts["clinical"] = _as_record(association)
@@ -624,10 +625,10 @@ def _enrichment(flow: Workflow, markers):
     return enrich_markers(
         markers.tables[gene_set_modality(flow)],
         workflow_gene_sets(flow),
-        fdr=settings.marker_fdr,
-        min_size=settings.min_set_size,
-        max_size=settings.max_set_size,
-        top_n=settings.sets_per_subtype,
+        marker_fdr=settings.marker_fdr,
+        min_set_size=settings.min_set_size,
+        max_set_size=settings.max_set_size,
+        sets_per_subtype=settings.sets_per_subtype,
     )
 
 

@@ -145,9 +145,9 @@ def main(argv: list[str]) -> int:
     args = parser.parse_args(argv)
     global KEEP
     KEEP = args.keep
-    extra = f"[resampling]\nbackend = \"processes\"\njobs = {args.jobs}\n"
+    extra = f"[resampling]\nbackend = \"processes\"\nn_jobs = {args.jobs}\n"
     if args.resamples:
-        extra += f"resamples = {args.resamples}\n"
+        extra += f"n_resamples = {args.resamples}\n"
     rows = []
     pd.set_option("display.width", 200)
     for name, layers, kinds, truth, counts in panel_cohorts(args.names):
