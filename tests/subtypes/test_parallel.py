@@ -10,6 +10,7 @@ import numpy as np
 import pytest
 from threadpoolctl import threadpool_info
 
+import strataweave
 from strataweave import InputError
 from strataweave.seeding import child_seeds
 from strataweave.subtypes import parallel
@@ -84,31 +85,24 @@ def test_scheduler_without_workers_is_an_input_error_within_the_timeout(shared):
         assert time.monotonic() - started < 10
 
 
-def test_worker_running_other_code_than_the_main_process_is_refused(shared, monkeypatch):
-    # A worker process started after the package was edited computes other numbers for the
-    # same seed; here the main process pretends to have read other source than the workers.
-    monkeypatch.setattr(parallel, "code_fingerprint", lambda: "0" * 64)
-    with pytest.raises(InputError, match="workers: found a worker running other strataweave source"):
+def test_worker_running_other_versions_than_the_main_process_is_refused(shared, monkeypatch):
+    # A remote worker with another install computes other numbers for the same seed; here the
+    # main process pretends to run other versions than its workers.
+    monkeypatch.setattr(parallel, "software_versions", lambda: "strataweave 0.0.0")
+    with pytest.raises(InputError, match="workers: found a worker running strataweave .*, the main process strataweave 0.0.0"):
         run_tasks(seeded_projection_labels, shared, child_seeds(3, 2), ParallelSettings("processes", n_jobs=2))
 
 
 @pytest.mark.slow
-def test_code_fingerprint_is_the_same_in_every_fresh_process():
-    # Two independent interpreters reading the same install must agree, or every worker
-    # would be refused: nothing process-specific (paths, times, thread counts) goes in.
-    script = "from strataweave.subtypes.parallel import code_fingerprint; print(code_fingerprint())"
+def test_software_versions_are_the_same_in_every_fresh_process():
+    # Two independent interpreters of the same install must agree, or every worker would be
+    # refused: nothing process-specific (paths, times, thread counts) goes in.
+    script = "from strataweave.subtypes.parallel import software_versions; print(software_versions())"
     single_threaded = {**os.environ, "OPENBLAS_NUM_THREADS": "1", "OMP_NUM_THREADS": "1"}
     command = [sys.executable, "-c", script]
     other = subprocess.run(command, capture_output=True, text=True, check=True, env=single_threaded)
-    assert other.stdout.strip() == parallel.code_fingerprint()
-
-
-def test_fingerprint_ignores_docstrings_comments_and_layout_but_not_code():
-    original = b'"""Module."""\n\ndef total(x):\n    """Sum."""\n    return x.sum()  # pairwise\n'
-    reworded = b'"""Other words."""\ndef total(x):\n    """Sum of x."""\n\n    return x.sum()\n'
-    changed = b'"""Module."""\n\ndef total(x):\n    """Sum."""\n    return x.sum(axis=0)\n'
-    assert parallel._code_without_docstrings(original) == parallel._code_without_docstrings(reworded)
-    assert parallel._code_without_docstrings(original) != parallel._code_without_docstrings(changed)
+    assert other.stdout.strip() == parallel.software_versions()
+    assert parallel.software_versions().startswith(f"strataweave {strataweave.__version__} numpy ")
 
 
 class _KeptInMemory:

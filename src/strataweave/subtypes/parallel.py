@@ -7,23 +7,19 @@ same seed returns the same result on every backend. The limit is set in this pro
 the whole run as well: serial tasks and the threads of an in-process Dask cluster then share
 one setting instead of racing to set and restore it.
 
-Every task also checks that its process runs the same task source (factorize, subtypes,
-seeding) and numeric libraries as the main process: a worker started after that source was
-edited (an editable install), or a remote worker with another install, would silently
+Every task also checks that its process runs the same versions of strataweave and of the
+numeric libraries as the main process: a remote worker with another install would silently
 compute other numbers for the same seed.
 """
 
 from __future__ import annotations
 
-import ast
 import os
 import warnings
 from collections.abc import Callable, Iterator, Sequence
 from contextlib import ExitStack, contextmanager
 from dataclasses import dataclass, field
 from functools import cache
-from hashlib import sha256
-from pathlib import Path
 from typing import Any, Protocol
 
 import joblib
@@ -33,6 +29,7 @@ import scipy.linalg  # noqa: F401  (loads scipy's BLAS now, so the thread limit 
 import sklearn
 from threadpoolctl import threadpool_info, threadpool_limits
 
+from strataweave import __version__
 from strataweave.errors import InputError
 
 BACKENDS = ("serial", "processes", "dask")
@@ -83,49 +80,21 @@ class ParallelSettings:
             raise InputError(f"connect_timeout: found {self.connect_timeout}; expected seconds > 0")
 
 
-TASK_SOURCES = ("factorize/**/*.py", "subtypes/**/*.py", "seeding.py")  # the package code tasks run
-
-
-def _read_task_sources() -> dict[str, bytes]:
-    package = Path(__file__).resolve().parents[1]
-    paths = sorted(path for pattern in TASK_SOURCES for path in package.glob(pattern))
-    return {path.relative_to(package).as_posix(): path.read_bytes() for path in paths}
-
-
-_TASK_SOURCE_TEXT = _read_task_sources()  # read at import, close to when this process loaded that code
-
-
-def _code_without_docstrings(text: bytes) -> str:
-    """The module's syntax tree without docstrings, comments or layout: edits to those are harmless."""
-    tree = ast.parse(text)
-    for node in ast.walk(tree):
-        documented = isinstance(node, (ast.Module, ast.ClassDef, ast.FunctionDef, ast.AsyncFunctionDef))
-        if documented and ast.get_docstring(node, clean=False) is not None:
-            node.body = node.body[1:]
-    return ast.dump(tree)
-
-
 @cache
-def code_fingerprint() -> str:
-    """Digest of the task code this process loaded and of its numeric libraries (versions, BLAS kernels)."""
-    digest = sha256()
-    for name, text in _TASK_SOURCE_TEXT.items():
-        digest.update(name.encode())
-        digest.update(_code_without_docstrings(text).encode())
+def software_versions() -> str:
+    """The versions of strataweave and of the numeric libraries (and BLAS kernels) this process runs."""
     blas = sorted(f"{pool['internal_api']} {pool['version']} {pool.get('architecture')}"
                   for pool in threadpool_info() if pool["user_api"] == "blas")
-    digest.update(" ".join([np.__version__, scipy.__version__, sklearn.__version__, *blas]).encode())
-    return digest.hexdigest()
+    return " ".join([f"strataweave {__version__}", f"numpy {np.__version__}", f"scipy {scipy.__version__}",
+                     f"scikit-learn {sklearn.__version__}", *blas])
 
 
-def _single_threaded(function: Callable, shared: Any, params: Any, main_fingerprint: str) -> tuple[Any, list]:
+def _single_threaded(function: Callable, shared: Any, params: Any, main_versions: str) -> tuple[Any, list]:
     """One task on one BLAS thread: its result and the warnings it raised (message, category, file, line)."""
-    if code_fingerprint() != main_fingerprint:
+    if software_versions() != main_versions:
         raise InputError(
-            f"workers: found a worker running other strataweave source or numeric libraries "
-            f"(fingerprint {code_fingerprint()[:12]}) than the main process ({main_fingerprint[:12]}); "
-            "expected the same code everywhere (restart after editing the package, "
-            "or install the same versions on the workers)"
+            f"workers: found a worker running {software_versions()}, the main process {main_versions}; "
+            "expected the same versions everywhere (install the same versions on the workers)"
         )
     with threadpool_limits(limits=1), warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
@@ -220,7 +189,7 @@ class TaskRunner:
         done = checkpoint.finished(function, task_params) if checkpoint is not None else {}
         todo = [(position, params) for position, params in enumerate(task_params) if position not in done]
         calls = (
-            joblib.delayed(_single_threaded)(function, shared, params, code_fingerprint()) for _, params in todo
+            joblib.delayed(_single_threaded)(function, shared, params, software_versions()) for _, params in todo
         )
         keep = None if checkpoint is None else (lambda params, result: checkpoint.keep(function, params, result))
         if self.settings.backend == "dask":
