@@ -72,18 +72,17 @@ def unsplit_data(modality: Modality) -> pd.DataFrame:
     """The modality's data before its sign split: one column per feature, signs kept.
 
     Patient distances and per-feature tests need each feature once; the split (positive
-    part, negative part) is only for the non-negative factorisation. The fitted steps before
-    the split are replayed on `raw`, so nothing is fitted twice. Without a split (or without
-    a preprocessor) this is `data` itself.
+    part, negative part) is only for the non-negative factorisation. It is undone as positive
+    part minus negative part, exact in floating point, so nothing (imputation included) is
+    computed twice. Without a split (or without a preprocessor) this is `data` itself.
     """
     fitted = modality.preprocessor
-    if fitted is None or modality.raw is None or not fitted.steps_ or fitted.steps_[-1]["step"] != "split_signs":
+    if fitted is None or not fitted.steps_ or fitted.steps_[-1]["step"] != "split_signs":
         return modality.data
-    state, arrays = fitted.to_state()
-    before = fitted.output_sources_[: fitted.output_sources_.size // 2]
-    state = {**state, "params": {**state["params"], "non_negative": "none"}, "steps": state["steps"][:-1]}
-    arrays = {**arrays, "output_features": before, "output_sources": before}
-    return Preprocessor.from_state(state, arrays).transform(modality.raw, source=modality.label)
+    half = modality.data.shape[1] // 2
+    values = modality.data.to_numpy()
+    features = pd.Index(fitted.output_sources_[:half], name=modality.data.columns.name)
+    return pd.DataFrame(values[:, :half] - values[:, half:], index=modality.data.index, columns=features)
 
 
 class Cohort:
