@@ -203,7 +203,8 @@ class Preprocessor:
 
     def _fit_impute(self, values, features) -> Step:
         if self.impute == "knn":
-            return {"step": "impute", "method": "knn", "neighbours": self.impute_neighbours, "reference": values}
+            donors = values[imputation.donor_rows(values.shape[0])]
+            return {"step": "impute", "method": "knn", "neighbours": self.impute_neighbours, "reference": donors}
         return {"step": "impute", "method": "median", "medians": moments.feature_median(values)}
 
 

@@ -9,6 +9,7 @@ from __future__ import annotations
 from collections.abc import Callable
 from typing import Any
 
+from strataweave.data.imputation import MAX_DONORS
 from strataweave.report.formatting import format_value
 from strataweave.report.wording import listing
 
@@ -51,7 +52,8 @@ def _imputation(m: dict[str, Any]) -> str:
     if method == "median":
         return "missing values were imputed by the feature median"
     if method == "knn":
-        return f"missing values were imputed from the {format_value(m.get('impute_neighbours'))} nearest patients"
+        return (f"missing values were imputed from the {format_value(m.get('impute_neighbours'))} nearest patients "
+                f"(among {MAX_DONORS:,} evenly spaced ones in a modality of more patients)")
     return "missing values were not imputed"
 
 
