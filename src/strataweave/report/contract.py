@@ -39,6 +39,8 @@ from strataweave.errors import InputError
 
 RESULTS_FILE = "results.json"
 FIGURE_DATA_FILE = "stages/figure_data.npz"
+COMPARISON_FIGURE = "comparison"  # comparison.png and comparison.svg of `strataweave compare`
+COMPARISON_PAGE = "comparison.html"
 MANIFEST_FILE = "manifest.json"
 
 

@@ -9,6 +9,7 @@ from strataweave.errors import InputError
 from strataweave.files import atomic_write_bytes, atomic_write_text
 from strataweave.report.comparison_page import render_comparison_html
 from strataweave.report.comparison_view import ComparisonView
+from strataweave.report.contract import COMPARISON_FIGURE, COMPARISON_PAGE
 from strataweave.report.figure_catalogue import draw_figures
 from strataweave.report.figure_style import new_figure, report_style, save_figure
 from strataweave.report.figures_comparison import FIGURE_SIZE as COMPARISON_SIZE
@@ -20,8 +21,6 @@ from strataweave.report.slides import render_slides
 FORMATS = ("html", "pdf")
 REPORT_FILE = "report.html"
 SLIDES_FILE = "slides.pdf"
-COMPARISON_FIGURE = "comparison"
-COMPARISON_PAGE = "comparison.html"
 
 
 def render_run(run_dir: str | Path, formats: Iterable[str] = FORMATS,

@@ -35,8 +35,7 @@ from strataweave.data.synthetic import write_synthetic_cohort
 from strataweave.errors import InputError
 from strataweave.files import atomic_write_text, guarded, sha256_file, write_table
 from strataweave.report.comparison_view import ComparisonView
-from strataweave.report.contract import RESULTS_FILE
-from strataweave.report.render import COMPARISON_FIGURE, COMPARISON_PAGE, render_comparison
+from strataweave.report.contract import COMPARISON_FIGURE, COMPARISON_PAGE, RESULTS_FILE
 from strataweave.seeding import run_seeds
 from strataweave.subtypes.compare import compare_partitions, split_flow
 from strataweave.subtypes.model import ModelModality, SubtypeModel
@@ -376,6 +375,8 @@ def compare_runs(run_a: str | Path, run_b: str | Path, out: str | Path | None = 
         atomic_write_text(out / COMPARISON_FILES[0], json.dumps(summary, indent=1) + "\n")
         write_table(contingency.reset_index(), out / COMPARISON_FILES[1], comment=CAUTION)
         write_table(flow, out / COMPARISON_FILES[2], comment=CAUTION)
+        from strataweave.report.render import render_comparison  # the plotting stack only when drawing
+
         names = Path(run_a).resolve().name, Path(run_b).resolve().name
         render_comparison(out, ComparisonView(*names, comparison.contingency, comparison.ari, comparison.nmi,
                                               comparison.n_patients, CAUTION))
