@@ -70,7 +70,7 @@ def test_core_flags_mark_patients_kept_with_their_subtype():
     labels = np.array([[0, 0, 0, 1, 1], [0, 0, 1, 1, 1], [0, 0, 0, 1, 1], [1, 1, 1, 0, 0]])
     full = np.array([0, 0, 0, 1, 1])
     summary = summarise_consensus(labels, full)
-    own, core = summary.core(full, threshold=0.8)
+    own, core = summary.own, summary.core(threshold=0.8)
     # by hand: patient 2 sits with 0/1 in 3 of 4 resamples, with 3/4 in 1 of 4
     np.testing.assert_allclose(own, [0.875, 0.875, 0.75, 1.0, 1.0])
     assert core.tolist() == [True, True, False, True, True]

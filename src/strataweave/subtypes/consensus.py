@@ -102,22 +102,22 @@ class ConsensusSummary:
     (lower, upper] (Senbabaoglu et al. 2014, Scientific Reports; NaN without such pairs).
     with_subtypes: N x K mean consensus of each patient with each subtype's members, self
     excluded (NaN where the patient was never drawn with any of them).
+    own: N, each patient's column of `with_subtypes` for its own subtype.
     matrix: the consensus among the kept patients (kept x kept).
     """
 
     pac: float
     with_subtypes: np.ndarray
+    own: np.ndarray
     matrix: np.ndarray
 
-    def core(self, labels: np.ndarray, threshold: float) -> tuple[np.ndarray, np.ndarray]:
-        """Each patient's mean consensus with its own subtype, and whether that exceeds `threshold`.
+    def core(self, threshold: float) -> np.ndarray:
+        """Whether each patient's mean consensus with its own subtype exceeds `threshold`.
 
         Core patients are those the resamples keep with their subtype-mates; the rest sit
         between subtypes and deserve care when the subtypes are described.
         """
-        _, codes = np.unique(np.asarray(labels), return_inverse=True)
-        own = self.with_subtypes[np.arange(codes.size), codes]
-        return own, np.nan_to_num(own, nan=0.0) > threshold
+        return np.nan_to_num(self.own, nan=0.0) > threshold
 
 
 def summarise_consensus(
@@ -159,4 +159,4 @@ def summarise_consensus(
     with np.errstate(invalid="ignore", divide="ignore"):
         with_subtypes = np.where(counts > 0, sums / counts, np.nan)
     pac = ambiguous / defined_pairs if defined_pairs else float("nan")
-    return ConsensusSummary(float(pac), with_subtypes, matrix)
+    return ConsensusSummary(float(pac), with_subtypes, with_subtypes[np.arange(n), codes], matrix)

@@ -151,7 +151,7 @@ def _assemble(patients, affinity, counts, settings, fits, resample_labels, kept,
         k = fit.count
         summary = summarise_consensus(resample_labels[k], fit.labels, settings.pac_window, kept)
         consensus[k] = summary.matrix
-        own, core = summary.core(fit.labels, settings.core_threshold)
+        own, core = summary.own, summary.core(settings.core_threshold)
         scores = pd.DataFrame(fit.scores, index=patients, columns=[f"score_{j}" for j in range(k)])
         assignments[k] = pd.concat(
             [
