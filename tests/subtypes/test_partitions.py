@@ -18,8 +18,13 @@ from strataweave.subtypes.partitions import (
     graph_degree,
     joint_coordinates,
 )
+from strataweave.seeding import child_seeds
+from strataweave.subtypes import tasks
+from strataweave.subtypes.baselines import concatenated_scaled, graph_partitions
+from strataweave.subtypes.consensus import NOT_DRAWN
 from strataweave.subtypes.settings import SweepSettings
 from strataweave.subtypes.sweep import sweep_subtype_counts
+from strataweave.subtypes.tasks import SweepInputs
 
 
 def _cliques(sizes: list[int]) -> tuple[sp.csr_matrix, np.ndarray]:
@@ -147,3 +152,29 @@ def test_the_concatenation_reads_the_profiles_not_the_factorisation_input():
     with pytest.raises(InputError, match="profile 'layer'"):
         sweep_subtype_counts(views, graph, [2], profiles={"layer": profiles[:70]}, settings=settings,
                              factorization=fit, random_state=2)
+
+
+def _resample_inputs(cohort, sources):
+    views = {name: frame.to_numpy() for name, frame in cohort.views.items()}
+    concatenated = concatenated_scaled(list(views.values()))
+    affinity = sp.csr_matrix(cohort.graph.affinity)
+    return SweepInputs(views, affinity, [2, 3], {"max_iter": 40}, SweepSettings(n_resamples=2, min_size=5),
+                       concatenated, joint_coordinates(concatenated, 0), graph_degree(affinity), sources=sources)
+
+
+def test_a_resample_repeats_each_counts_full_data_choice(cohort, monkeypatch):
+    fitted = []
+    original = tasks._fit_and_label
+    monkeypatch.setattr(tasks, "_fit_and_label", lambda *a, **k: fitted.append(a[2]) or original(*a, **k))
+    seed = 11
+    graph_only = tasks.fit_resample(_resample_inputs(cohort, {2: "fused_graph", 3: "fused_graph"}), (0, seed))
+    assert fitted == []  # no NMF where no count's partition came from it
+    drawn = graph_only.labels[0] != NOT_DRAWN
+    restricted = sp.csr_matrix(cohort.graph.affinity)[drawn][:, drawn]
+    # the seed layout of fit_resample's docstring: the graph partitions take child max(counts) + 1
+    expected = graph_partitions(restricted, [2, 3], child_seeds(seed, 6)[4])
+    for position, count in enumerate([2, 3]):
+        assert np.array_equal(graph_only.labels[position, drawn], expected[count])
+    mixed = tasks.fit_resample(_resample_inputs(cohort, {2: "joint_model", 3: "concatenation"}), (0, seed))
+    assert fitted == [2]  # the joint NMF at the one count whose partition came from it
+    assert np.array_equal(mixed.labels != NOT_DRAWN, graph_only.labels != NOT_DRAWN)  # the same draw

@@ -73,8 +73,9 @@ def _partition_phrase(selection: dict, count: int, graph_name: str, cite) -> str
     if len(sources) < 2:
         return f"The subtypes were {''.join(PARTITION_WORDS[taken]).format(graph=graph_name)}."
     words = ", ".join("".join(PARTITION_WORDS[key]).format(graph=graph_name) for key in sources)
-    return (f"At each count, and in every resample, the subtypes were the partition with the highest modularity on "
-            f"the {graph_name}{cite('newman2006')} among {words}; at the chosen count this was "
+    return (f"At each count the subtypes were the partition with the highest modularity on "
+            f"the {graph_name}{cite('newman2006')} among {words}, and every resample of that count repeated "
+            f"the kind of partition chosen; at the chosen count this was "
             f"{PARTITION_WORDS[taken][0].format(graph=graph_name)}.")
 
 

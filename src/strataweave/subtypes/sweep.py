@@ -1,8 +1,9 @@
 """Sweep of subtype counts: resampling consensus, criteria, baselines and a recommended count.
 
-For each count, the joint NMF is fitted on all patients (final labels) and on each resample
-of the patients (graph restricted to the drawn ones); the resample labels give the consensus
-matrix (Monti et al. 2003) and the criteria. Tasks run on the backend of `parallel`.
+For each count, the joint NMF is fitted on all patients and the best-fitting candidate
+partition taken (final labels); each resample of the patients (graph restricted to the drawn
+ones) repeats the way of partitioning that count's full-data fit took; the resample labels
+give the consensus matrix (Monti et al. 2003) and the criteria. Tasks run on the backend of `parallel`.
 """
 
 from __future__ import annotations
@@ -132,6 +133,7 @@ def sweep_subtype_counts(
             shared = replace(
                 shared, warm_factors={fit.count: (fit.model.patient_factor_, fit.model.components_) for fit in fits}
             )
+        shared = replace(shared, sources={fit.count: fit.source for fit in fits})
         resample_tasks = list(enumerate(child_seeds(resample_root, settings.n_resamples)))
         resamples = runner.map(fit_resample, shared, resample_tasks, progress, done_before=len(counts))
 

@@ -28,8 +28,9 @@ class SweepInputs:
     """What every task reads: modalities (name -> patients x features, all-NaN rows for a
     missing modality), the fused affinity, the counts, JointNMF keyword arguments, the
     sweep settings, the scaled concatenation for the k-means baseline, its principal
-    coordinates and the neighbour count for the concatenation partition, and, for warm
-    starts, the full-data factors per count."""
+    coordinates and the neighbour count for the concatenation partition, for warm starts the
+    full-data factors per count, and for the resamples the candidate each count's full-data
+    fit took (see `partitions`)."""
 
     views: dict[str, np.ndarray]
     affinity: sp.csr_matrix
@@ -40,6 +41,7 @@ class SweepInputs:
     joint: np.ndarray
     joint_neighbours: int
     warm_factors: dict[int, tuple[np.ndarray, list[np.ndarray]]] | None = None
+    sources: dict[int, str] | None = None
 
 
 @dataclass
@@ -123,7 +125,9 @@ def _draw(rng: np.random.Generator, size: int, fraction: float, at_least: int) -
 
 
 def fit_resample(shared: SweepInputs, task: tuple[int, int]) -> ResampleFit:
-    """Draw patients (and features), restrict the graph to them, fit and label every count.
+    """Draw patients (and features), restrict the graph to them and partition them at every
+    count the way the full-data fit of that count did (`shared.sources`); the joint NMF is
+    fitted only at counts whose full-data partition came from it.
 
     Seed layout: child 0 draws the resample, child k seeds count k, so the draw does not
     depend on the counts and a count's fit does not depend on the other counts; the graph
@@ -156,13 +160,19 @@ def fit_resample(shared: SweepInputs, task: tuple[int, int]) -> ResampleFit:
 
     unconverged = 0
     for position, count in enumerate(counts):
+        source = shared.sources[count]
+        if source == "fused_graph":
+            labels[position, rows] = partitions[count]
+            continue
+        if source == "concatenation":
+            labels[position, rows] = concatenation_at(count)
+            continue
         warm = None
         if shared.warm_factors is not None:
             W, loadings = shared.warm_factors[count]
             warm = (W[rows], [H[:, columns[name]] for name, H in zip(views, loadings)])
         start = _start(settings, partitions[count], count, warm)
         _, model_labels, stopped = _fit_and_label(views, affinity, count, factorization, seeds[count], start)
-        candidates = _candidates(settings, model_labels, partitions[count], lambda: concatenation_at(count))
-        labels[position, rows] = choose_partition(affinity, candidates)[1]
+        labels[position, rows] = model_labels
         unconverged += stopped
     return ResampleFit(labels, unconverged)
