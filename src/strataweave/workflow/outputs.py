@@ -23,9 +23,11 @@ from strataweave.data.preprocess import Preprocessor
 from strataweave.data.qc import unmatched_counts
 from strataweave.data.scaling import NEGATIVE_SUFFIX, POSITIVE_SUFFIX
 from strataweave.evaluate.result import plain
+from strataweave.factorize import JointNMF
 from strataweave.files import atomic_write_arrays, atomic_write_text, write_table
 from strataweave.report.contract import FIGURE_DATA_FILE, RESULTS_FILE, check_figure_data, check_results
 from strataweave.subtypes.model import ModelModality, SubtypeModel
+from strataweave.subtypes.result import SweepResult
 from strataweave.workflow.config import Workflow
 from strataweave.workflow.progress import Feedback
 from strataweave.workflow.run_folder import RunFolder
@@ -34,8 +36,8 @@ from strataweave.workflow.stages import (
     ReportedGrouping,
     analysis_patients,
     chosen_sweep,
+    final_model,
     given_grouping,
-    model_from_record,
     normalised_views,
     subtype_grouping,
 )
@@ -70,7 +72,7 @@ def write_tables(folder: Path, stage_results: dict, grouping: ReportedGrouping) 
     (+ enrichment_rank_test) (.tsv), each when it ran."""
     _table(_assignments(grouping), folder / "assignments.tsv")
     if "sweep" in stage_results:
-        _table(stage_results["sweep"]["criteria"].reset_index(), folder / "rank_selection.tsv")
+        _table(stage_results["sweep"].criteria.reset_index(), folder / "rank_selection.tsv")
     evaluation = stage_results["evaluate"]
     if "survival" in evaluation:
         _table(_survival_table(evaluation["survival"]["tables"]), folder / "survival.tsv")
@@ -117,7 +119,7 @@ def write_outputs(folder: RunFolder, flow: Workflow, stage_results: dict, manife
     folder.clear_outputs()
     write_tables(folder.path, stage_results, grouping)
     if not groups_given:
-        write_model(folder.path / "model", flow, prepared, stage_results["final_fit"])
+        write_model(folder.path / "model", flow, prepared, stage_results["sweep"], stage_results["final_fit"])
     atomic_write_arrays(folder.path / FIGURE_DATA_FILE, arrays)
     atomic_write_text(folder.path / RESULTS_FILE, json.dumps(results, indent=1, allow_nan=False) + "\n")
     folder.write_manifest(manifest)
@@ -247,15 +249,15 @@ def build_results(
 MAX_CONSENSUS_SIDE = 600
 
 
-def _consensus_arrays(sweep: dict) -> dict[str, np.ndarray]:
+def _consensus_arrays(sweep: SweepResult) -> dict[str, np.ndarray]:
     """Each count's consensus ordered by its subtypes, evenly thinned to at most 600 patients."""
     arrays = {}
-    for k in sweep["counts"]:
-        codes = sweep["assignments"][k]["subtype"].to_numpy(dtype=np.int64)[sweep["consensus_patients"]]
+    for k in sweep.counts:
+        codes = sweep.assignments[k]["subtype"].to_numpy(dtype=np.int64)[sweep.consensus_patients]
         order = np.argsort(codes, kind="stable")
         if order.size > MAX_CONSENSUS_SIDE:
             order = order[np.unique(np.linspace(0, order.size - 1, MAX_CONSENSUS_SIDE).round().astype(np.int64))]
-        arrays[f"consensus_k{k}"] = np.asarray(sweep["consensus"][k], dtype=np.float32)[np.ix_(order, order)]
+        arrays[f"consensus_k{k}"] = np.asarray(sweep.consensus[k], dtype=np.float32)[np.ix_(order, order)]
         arrays[f"consensus_k{k}_codes"] = codes[order]
     return arrays
 
@@ -323,7 +325,8 @@ def build_figure_data(
     if views:
         arrays.update(modality_map_arrays(names, views, grouping))
     if "final_fit" in stage_results:
-        arrays.update(factor_arrays(names, stage_results["final_fit"]["model"], prepared["views"], grouping))
+        model = final_model(stage_results["sweep"], stage_results["final_fit"])
+        arrays.update(factor_arrays(names, model, prepared["views"], grouping))
     markers = evaluation.get("markers") or {}
     for i, section in enumerate(results.get("markers", [])):
         arrays.update(_marker_arrays(i, views[section["modality"]], section["rows"], grouping))
@@ -404,11 +407,10 @@ def _display_names(features: pd.Index) -> np.ndarray:
     return text.to_numpy(dtype=str)
 
 
-def factor_arrays(names: list[str], model_record: dict, factor_views: dict[str, pd.DataFrame],
+def factor_arrays(names: list[str], model: JointNMF, factor_views: dict[str, pd.DataFrame],
                   grouping: ReportedGrouping) -> dict[str, np.ndarray]:
     """Share of each factor's loading held by each modality (M x r, columns sum to 1), the top loadings of each
     factor across modalities, and the mean patient factor of each subtype (K x r)."""
-    model = model_from_record(model_record)
     # sum_v alpha_v ||H_v[k]||^2 = 1 (JointNMF's scaling), so alpha_v H_v[k, f]^2 is feature f's share of factor k
     shares = [weight * np.square(loadings) for weight, loadings in zip(model.modality_weights_, model.components_)]
     row_of = [names.index(name) for name in model.view_names_]
@@ -420,7 +422,7 @@ def factor_arrays(names: list[str], model_record: dict, factor_views: dict[str, 
     features = np.concatenate([_display_names(factor_views[name].columns) for name in model.view_names_])
     modality = np.concatenate([np.full(share.shape[1], row) for share, row in zip(shares, row_of)])
     top = np.argsort(-every, axis=1, kind="stable")[:, :TOP_LOADINGS]
-    patient_factor = np.asarray(model_record["patient_factor"], dtype=np.float64)
+    patient_factor = np.asarray(model.patient_factor_, dtype=np.float64)
     membership = np.eye(len(grouping.names))[grouping.codes]
     return {
         "factor_contribution": contribution,
@@ -454,17 +456,17 @@ def volcano_arrays(i: int, table: pd.DataFrame, fdr: float, grouping: ReportedGr
 # model/: the run's SubtypeModel (fitted preprocessing, joint NMF, subtype centres), as JSON plus `.npz`.
 # ---------------------------------------------------------------------------------------------
 
-def run_model(flow: Workflow, prepared: dict, fitted: dict) -> SubtypeModel:
+def run_model(flow: Workflow, prepared: dict, sweep: SweepResult, fitted: dict) -> SubtypeModel:
     """The final fit of a run with every modality's fitted preprocessing, weight and file layout."""
     modalities = [
         ModelModality(m.name, m.kind, m.weight, m.orientation,
                       Preprocessor.from_state(**prepared["preprocessors"][m.name]))
         for m in flow.modalities
     ]
-    return SubtypeModel(model_from_record(fitted["model"]), modalities, fitted["names"], fitted["centres"],
+    return SubtypeModel(final_model(sweep, fitted), modalities, fitted["names"], fitted["centres"],
                         fitted["far_threshold"], len(prepared["patients"]))
 
 
-def write_model(folder: Path, flow: Workflow, prepared: dict, fitted: dict) -> None:
+def write_model(folder: Path, flow: Workflow, prepared: dict, sweep: SweepResult, fitted: dict) -> None:
     """Save the run's model into `folder` (what `strataweave assign` reads)."""
-    run_model(flow, prepared, fitted).save(folder)
+    run_model(flow, prepared, sweep, fitted).save(folder)

@@ -3,11 +3,12 @@
 run:      load -> prepare -> graphs -> sweep -> select -> final_fit -> evaluate
 evaluate: load -> prepare (only with modalities) -> evaluate (of the grouping given)
 
-Each stage turns the results of the stages it reads into plain containers (dicts of
-pandas, numpy and scipy objects) that the stage cache stores without pickle; the numeric
-layers do the work. A stage's parameters hold exactly the settings its result depends on:
-where the resamples run (backend, n_jobs, scheduler) is left out because the results do not
-depend on it, and input files enter by their sha256, not their path.
+Each stage turns the results of the stages it reads into a typed result that saves its own
+state (the sweep's `SweepResult`) or plain containers (dicts of pandas, numpy and scipy
+objects) that the stage cache stores without pickle; the numeric layers do the work. A
+stage's parameters hold exactly the settings its result depends on: where the resamples run
+(backend, n_jobs, scheduler) is left out because the results do not depend on it, and input
+files enter by their sha256, not their path.
 
 Sections: load, prepare, graphs, sweep / select / final fit, the grouping a run reports,
 evaluate, and last the list of stages.
@@ -225,7 +226,7 @@ def _number(value: float) -> float | None:
 
 
 # ---------------------------------------------------------------------------------------------
-# The sweep, select and final-fit stages, and the cacheable record of a sweep.
+# The sweep, select and final-fit stages.
 #
 # The sweep fits every count on all patients and on the resamples. Select applies the
 # recommendation rule, or the count the workflow fixes, without rerunning the sweep. The
@@ -269,9 +270,8 @@ def sweep_settings(flow: Workflow) -> SweepSettings:
 
 def run_sweep(
     flow: Workflow, prepared: dict, graphs: dict, seed: int, feedback: Feedback, work: Path | None = None
-) -> dict:
-    """Sweep the workflow's counts, each finished resample kept in `work` (if given) for a resumed
-    sweep; the result as a cacheable record (see `sweep_from_record`)."""
+) -> SweepResult:
+    """Sweep the workflow's counts, each finished resample kept in `work` (if given) for a resumed sweep."""
     settings = sweep_settings(flow)
     views = dict(zip(prepared["views"], aligned_views(prepared)))
     profiles = {name: frame.reindex(prepared["patients"]) for name, frame in normalised_views(prepared).items()}
@@ -281,7 +281,7 @@ def run_sweep(
         checkpoint=None if work is None else ResampleCheckpoint(work, feedback.say),
     )
     with feedback.bar("subtype count sweep", planned_tasks(flow.subtypes.counts, settings)) as progress:
-        result = sweep_subtype_counts(
+        return sweep_subtype_counts(
             views,
             graphs["affinity"],
             flow.subtypes.counts,
@@ -292,101 +292,48 @@ def run_sweep(
             random_state=seed,
             progress=progress,
         )
-    return sweep_record(result)
 
 
-def _model_record(model: JointNMF) -> dict:
-    state, arrays = model.to_state()
-    return {"state": state, "arrays": arrays, "patient_factor": model.patient_factor_}
-
-
-def model_from_record(record: dict) -> JointNMF:
-    model = JointNMF.from_state(record["state"], record["arrays"])
-    model.patient_factor_ = record["patient_factor"]
-    return model
-
-
-def sweep_record(result: SweepResult) -> dict:
-    """A SweepResult as plain containers the stage cache stores losslessly."""
-    return {
-        "patients": result.patients,
-        "counts": list(result.counts),
-        "criteria": result.criteria,
-        "consensus": result.consensus,
-        "consensus_patients": result.consensus_patients,
-        "assignments": result.assignments,
-        "resample_labels": result.resample_labels,
-        "baseline_labels": result.baseline_labels,
-        "baselines": result.baselines,
-        "partitions": result.partitions,
-        "flow": result.flow,
-        "models": {k: _model_record(model) for k, model in result.models.items()},
-        "recommendation": result.recommendation.to_dict(),
-        "settings": result.settings.to_dict(),
-        "unconverged": int(result.unconverged),
-    }
-
-
-def sweep_from_record(record: dict) -> SweepResult:
-    """The SweepResult that `sweep_record` stored."""
-    settings = dict(record["settings"])
-    settings["pac_window"] = tuple(settings["pac_window"])
-    return SweepResult(
-        patients=record["patients"],
-        counts=list(record["counts"]),
-        criteria=record["criteria"],
-        consensus=record["consensus"],
-        consensus_patients=record["consensus_patients"],
-        assignments=record["assignments"],
-        resample_labels=record["resample_labels"],
-        baseline_labels=record["baseline_labels"],
-        baselines=record["baselines"],
-        partitions=record["partitions"],
-        flow=record["flow"],
-        models={k: model_from_record(model) for k, model in record["models"].items()},
-        recommendation=Recommendation(**record["recommendation"]),
-        settings=SweepSettings(**settings),
-        unconverged=record["unconverged"],
-    )
-
-
-def select_count(flow: Workflow, sweep: dict) -> dict:
+def select_count(flow: Workflow, sweep: SweepResult) -> dict:
     """The count to use: the rule's recommendation, or the workflow's `subtypes.use_count`."""
     fixed = flow.subtypes.use_count if isinstance(flow.subtypes.use_count, int) else None
-    chosen = sweep_from_record(sweep).with_user_count(fixed)
+    chosen = sweep.with_user_count(fixed)
     return {"count": int(chosen.count), "user_count": fixed, "recommendation": chosen.recommendation.to_dict()}
 
 
-def chosen_sweep(sweep: dict, selected: dict) -> SweepResult:
+def chosen_sweep(sweep: SweepResult, selected: dict) -> SweepResult:
     """The sweep with the selected count's recommendation."""
-    result = sweep_from_record(sweep)
     return replace(
-        result,
-        settings=replace(result.settings, user_count=selected["user_count"]),
+        sweep,
+        settings=replace(sweep.settings, user_count=selected["user_count"]),
         recommendation=Recommendation(**selected["recommendation"]),
     )
 
 
-def final_fit(prepared: dict, sweep: dict, selected: dict) -> dict:
-    """Model, labels and scores at the chosen count, with the subtype centres for new patients.
+def final_fit(prepared: dict, sweep: SweepResult, selected: dict) -> dict:
+    """Labels and scores at the chosen count, with the subtype centres for new patients (the model
+    itself stays in the sweep: `final_model`).
 
     New patients get their patient factor by projection on the loadings (no graph), so the
     centres and the far threshold are taken from the training patients projected the same
     way: a training patient passed back through `assign` then meets the centres it helped make.
     """
     count = selected["count"]
-    model = sweep["models"][count]
-    assignments = sweep["assignments"][count]
+    assignments = sweep.assignments[count]
     labels = assignments["subtype"].to_numpy()
-    centres, far = placement(project_patients(model_from_record(model), aligned_views(prepared)), labels, count)
+    centres, far = placement(project_patients(sweep.models[count], aligned_views(prepared)), labels, count)
     return {
         "count": count,
         "names": subtype_names(count),
-        "model": model,
         "assignments": assignments,
         "centres": centres,
         "far_threshold": far,
     }
+
+
+def final_model(sweep: SweepResult, fitted: dict) -> JointNMF:
+    """The joint NMF of the final fit: the sweep's full-data fit at the chosen count."""
+    return sweep.models[fitted["count"]]
 
 
 def final_labels(fitted: dict) -> pd.Series:
@@ -701,7 +648,7 @@ def build_stages(
         Stage("sweep", ("prepare", "graphs"), sweep_parameters,
               lambda inputs: run_sweep(flow, inputs["prepare"], inputs["graphs"], seeds["sweep"], feedback,
                                        inputs[WORK]),
-              keeps_work=True),
+              keeps_work=True, result_type=SweepResult),
         Stage("select", ("sweep",), {"use_count": flow.subtypes.use_count},
               lambda inputs: select_count(flow, inputs["sweep"])),
         Stage("final_fit", ("prepare", "sweep", "select"), {},
