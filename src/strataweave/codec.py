@@ -6,12 +6,14 @@ into a JSON-ready tree and a dict of arrays for an `.npz` file; `decode` rebuild
 object (same dtypes, same labels) so that tables written from a stored result are byte for
 byte those written from a fresh one. Object arrays are never stored: text becomes
 fixed-width unicode with a missing-value mask. `prefixed` / `unprefixed` keep the arrays of
-several parts apart in one `.npz`. Shared by every layer (the stage cache, saved models,
-the sweep's `to_state`).
+several parts apart in one `.npz`; `CodecState` gives a dataclass of such values its
+`to_state` / `from_state`. Shared by every layer (the stage cache, saved models, the sweep's
+`to_state`).
 """
 
 from __future__ import annotations
 
+import dataclasses
 from collections.abc import Mapping
 from pathlib import Path
 
@@ -185,3 +187,14 @@ def decode(tree: object, arrays) -> object:
     if "$tuple" in tree:
         return tuple(decode(v, arrays) for v in tree["$tuple"])
     return {k: decode(v, arrays) for k, v in tree.items()}
+
+
+class CodecState:
+    """`to_state` / `from_state` for a dataclass whose every field the codec stores."""
+
+    def to_state(self) -> tuple[object, dict[str, np.ndarray]]:
+        return encode({field.name: getattr(self, field.name) for field in dataclasses.fields(self)})
+
+    @classmethod
+    def from_state(cls, state: dict, arrays):
+        return cls(**decode(state, arrays))

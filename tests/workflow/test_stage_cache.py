@@ -2,13 +2,15 @@
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 import numpy as np
 import pandas as pd
 import pytest
 import scipy.sparse as sp
 
+from strataweave.codec import CodecState, decode, encode
 from strataweave.files import write_table
-from strataweave.codec import decode, encode
 from strataweave.workflow.cache import Pipeline, Stage, StageCache, stage_key
 
 
@@ -163,3 +165,18 @@ def test_an_entry_of_the_other_kind_is_computed_again_with_a_notice(tmp_path) ->
     cache.save("sweep", pipeline.keys["sweep"], {"counts": np.arange(3)})  # as a plain record, like an older run
     assert pipeline.result("sweep").counts.tolist() == [0, 1, 2]
     assert len(listener.notices) == 1 and "holds no state" in listener.notices[0]
+
+
+def test_a_dataclass_of_codec_values_round_trips_by_its_fields(tmp_path) -> None:
+    @dataclass(frozen=True)
+    class Fit(CodecState):
+        count: int
+        table: pd.DataFrame
+        affinity: sp.csr_matrix
+
+    fresh = Fit(3, _mixed_result()["clinical"], sp.identity(4, format="csr"))
+    cache = StageCache(tmp_path)
+    cache.save("final_fit", "k" * 64, fresh)
+    back = cache.load("final_fit", "k" * 64, Fit)
+    assert back.count == 3 and (back.affinity != fresh.affinity).nnz == 0
+    pd.testing.assert_frame_equal(back.table, fresh.table)

@@ -19,7 +19,6 @@ from sklearn.decomposition import PCA
 from sklearn.metrics import silhouette_samples
 
 from strataweave.caution import CAUTION
-from strataweave.data.preprocess import Preprocessor
 from strataweave.data.qc import unmatched_counts
 from strataweave.data.scaling import NEGATIVE_SUFFIX, POSITIVE_SUFFIX
 from strataweave.evaluate.result import plain
@@ -33,12 +32,12 @@ from strataweave.workflow.progress import Feedback
 from strataweave.workflow.run_folder import RunFolder
 from strataweave.workflow.stages import (
     NOT_RUN,
+    FinalFit,
+    PreparedCohort,
     ReportedGrouping,
     analysis_patients,
     chosen_sweep,
-    final_model,
     given_grouping,
-    normalised_views,
     subtype_grouping,
 )
 
@@ -111,7 +110,7 @@ def write_outputs(folder: RunFolder, flow: Workflow, stage_results: dict, manife
     groups_given = "final_fit" not in stage_results
     results = build_results(flow, stage_results, grouping, groups_given)
     prepared = stage_results.get("prepare")
-    views = normalised_views(prepared) if prepared is not None else {}
+    views = prepared.normalised_views if prepared is not None else {}
     arrays = build_figure_data(stage_results, results, grouping, views, flow.report.show_patient_ids)
     check_results(results)
     check_figure_data(arrays, results)
@@ -153,7 +152,7 @@ def parameters(flow: Workflow) -> dict:
     )
 
 
-def _cohort(grouping: ReportedGrouping, prepared: dict | None, show_patient_ids: bool) -> dict:
+def _cohort(grouping: ReportedGrouping, prepared: PreparedCohort | None, show_patient_ids: bool) -> dict:
     """Patients and modalities as analysed; patients of a matrix absent from the clinical table are counted.
 
     `unmatched` counts the left-out modality patients per modality and reason (a case-only
@@ -162,13 +161,13 @@ def _cohort(grouping: ReportedGrouping, prepared: dict | None, show_patient_ids:
     """
     section: dict = {"patients": len(grouping.patients), "modalities": []}
     if prepared is not None:
-        measured = prepared["presence"].loc[grouping.patients]
-        for row in prepared["qc"]:
+        measured = prepared.presence.loc[grouping.patients]
+        for row in prepared.qc:
             section["modalities"].append({**row, "patients": int(measured[row["name"]].sum())})
-        section["left_out_not_in_clinical"] = prepared["dropped"]
-        section["unmatched"] = unmatched_counts(prepared["unmatched"]).to_dict("records")
+        section["left_out_not_in_clinical"] = prepared.dropped
+        section["unmatched"] = unmatched_counts(prepared.unmatched).to_dict("records")
         if show_patient_ids:
-            section["unmatched_patients"] = prepared["unmatched"].to_dict("records")
+            section["unmatched_patients"] = prepared.unmatched.to_dict("records")
     return section
 
 
@@ -212,7 +211,7 @@ def build_results(
     }
     results["cohort"] = _cohort(grouping, prepared, flow.report.show_patient_ids)
     if "graphs" in stage_results:
-        results["graph"] = stage_results["graphs"]["summary"]
+        results["graph"] = stage_results["graphs"].summary
     if groups_given:
         results["subtypes"] = {"labels": grouping.names, "sizes": grouping.sizes, "given": True}
     else:
@@ -302,7 +301,7 @@ def build_figure_data(
     prepared = stage_results.get("prepare")
     n = len(grouping.patients)
     presence = (
-        prepared["presence"].loc[grouping.patients].to_numpy(dtype=bool) if prepared is not None
+        prepared.presence.loc[grouping.patients].to_numpy(dtype=bool) if prepared is not None
         else np.zeros((n, 0), dtype=bool)
     )
     arrays = {
@@ -314,8 +313,8 @@ def build_figure_data(
     if show_patient_ids:
         arrays["patient_ids"] = np.asarray(grouping.patients, dtype=str)
     if "graphs" in stage_results:
-        positions = prepared["patients"].get_indexer(grouping.patients)
-        arrays["embedding"] = np.asarray(stage_results["graphs"]["embedding"], dtype=np.float64)[positions]
+        positions = prepared.patients.get_indexer(grouping.patients)
+        arrays["embedding"] = np.asarray(stage_results["graphs"].embedding, dtype=np.float64)[positions]
     if "sweep" in stage_results:
         arrays.update(_consensus_arrays(stage_results["sweep"]))
     evaluation = stage_results["evaluate"]
@@ -325,8 +324,8 @@ def build_figure_data(
     if views:
         arrays.update(modality_map_arrays(names, views, grouping))
     if "final_fit" in stage_results:
-        model = final_model(stage_results["sweep"], stage_results["final_fit"])
-        arrays.update(factor_arrays(names, model, prepared["views"], grouping))
+        model = stage_results["sweep"].models[stage_results["final_fit"].count]
+        arrays.update(factor_arrays(names, model, prepared.views, grouping))
     markers = evaluation.get("markers") or {}
     for i, section in enumerate(results.get("markers", [])):
         arrays.update(_marker_arrays(i, views[section["modality"]], section["rows"], grouping))
@@ -456,17 +455,16 @@ def volcano_arrays(i: int, table: pd.DataFrame, fdr: float, grouping: ReportedGr
 # model/: the run's SubtypeModel (fitted preprocessing, joint NMF, subtype centres), as JSON plus `.npz`.
 # ---------------------------------------------------------------------------------------------
 
-def run_model(flow: Workflow, prepared: dict, sweep: SweepResult, fitted: dict) -> SubtypeModel:
+def run_model(flow: Workflow, prepared: PreparedCohort, sweep: SweepResult, fitted: FinalFit) -> SubtypeModel:
     """The final fit of a run with every modality's fitted preprocessing, weight and file layout."""
     modalities = [
-        ModelModality(m.name, m.kind, m.weight, m.orientation,
-                      Preprocessor.from_state(**prepared["preprocessors"][m.name]))
+        ModelModality(m.name, m.kind, m.weight, m.orientation, prepared.preprocessors[m.name])
         for m in flow.modalities
     ]
-    return SubtypeModel(final_model(sweep, fitted), modalities, fitted["names"], fitted["centres"],
-                        fitted["far_threshold"], len(prepared["patients"]))
+    return SubtypeModel(sweep.models[fitted.count], modalities, fitted.names, fitted.centres, fitted.far_threshold,
+                        len(prepared.patients))
 
 
-def write_model(folder: Path, flow: Workflow, prepared: dict, sweep: SweepResult, fitted: dict) -> None:
+def write_model(folder: Path, flow: Workflow, prepared: PreparedCohort, sweep: SweepResult, fitted: FinalFit) -> None:
     """Save the run's model into `folder` (what `strataweave assign` reads)."""
     run_model(flow, prepared, sweep, fitted).save(folder)
