@@ -66,10 +66,8 @@ def test_factor_shares_are_each_modality_s_weighted_loading(layers) -> None:
                     "methylation": pd.DataFrame(rng.uniform(size=(60, 4)),
                                                 columns=[f"c{j}:{part}" for part in ("pos", "neg") for j in range(2)])}
     model = JointNMF(n_components=3, random_state=0, max_iter=50).fit(list(factor_views.values()))
-    state, model_arrays = model.to_state()
-    state["view_names"] = list(factor_views)
-    record = {"state": state, "arrays": model_arrays, "patient_factor": model.patient_factor_}
-    arrays = factor_arrays(["rna", "methylation"], record, factor_views, grouping)
+    model.view_names_ = list(factor_views)
+    arrays = factor_arrays(["rna", "methylation"], model, factor_views, grouping)
     squared = [w * h ** 2 for w, h in zip(model.modality_weights_, model.components_)]
     expected = np.stack([q.sum(axis=1) for q in squared])
     assert np.allclose(arrays["factor_contribution"], expected / expected.sum(axis=0))

@@ -2,13 +2,16 @@
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 import numpy as np
 import pandas as pd
 import pytest
 import scipy.sparse as sp
 
+from strataweave.codec import CodecState, decode, encode
 from strataweave.files import write_table
-from strataweave.workflow.cache import Pipeline, Stage, StageCache, decode, encode, stage_key
+from strataweave.workflow.cache import Pipeline, Stage, StageCache, stage_key
 
 
 def _mixed_result() -> dict:
@@ -119,3 +122,61 @@ def test_changing_one_parameter_reruns_only_what_depends_on_it(tmp_path) -> None
     assert calls == ["middle", "last"]
     cache.prune(changed.keys)
     assert len(list(tmp_path.glob("*.json"))) == 4
+
+
+class _Counts:
+    """A typed stage result (the cache's Stateful protocol)."""
+
+    def __init__(self, counts: np.ndarray) -> None:
+        self.counts = counts
+
+    def to_state(self):
+        return {"n": int(self.counts.size)}, {"counts": self.counts}
+
+    @classmethod
+    def from_state(cls, state, arrays):
+        assert arrays["counts"].size == state["n"]
+        return cls(arrays["counts"])
+
+
+class _Noting(_Quiet):
+    def __init__(self) -> None:
+        self.notices: list[str] = []
+
+    def notice(self, message):
+        self.notices.append(message)
+
+
+def test_a_typed_result_is_saved_by_its_state_and_rebuilt_by_its_class(tmp_path) -> None:
+    def stages(calls: list) -> list[Stage]:
+        return [Stage("sweep", (), {}, lambda inputs: calls.append(1) or _Counts(np.arange(4)), result_type=_Counts),
+                Stage("select", ("sweep",), {}, lambda inputs: {"total": int(inputs["sweep"].counts.sum())})]
+
+    calls: list = []
+    assert Pipeline(stages(calls), StageCache(tmp_path), _Quiet()).result("select") == {"total": 6}
+    again = Pipeline(stages(calls), StageCache(tmp_path), _Quiet()).result("sweep")
+    assert isinstance(again, _Counts) and again.counts.tolist() == [0, 1, 2, 3] and calls == [1]
+
+
+def test_an_entry_of_the_other_kind_is_computed_again_with_a_notice(tmp_path) -> None:
+    cache, listener = StageCache(tmp_path), _Noting()
+    pipeline = Pipeline([Stage("sweep", (), {}, lambda inputs: _Counts(np.arange(3)), result_type=_Counts)],
+                        cache, listener)
+    cache.save("sweep", pipeline.keys["sweep"], {"counts": np.arange(3)})  # as a plain record, like an older run
+    assert pipeline.result("sweep").counts.tolist() == [0, 1, 2]
+    assert len(listener.notices) == 1 and "holds no state" in listener.notices[0]
+
+
+def test_a_dataclass_of_codec_values_round_trips_by_its_fields(tmp_path) -> None:
+    @dataclass(frozen=True)
+    class Fit(CodecState):
+        count: int
+        table: pd.DataFrame
+        affinity: sp.csr_matrix
+
+    fresh = Fit(3, _mixed_result()["clinical"], sp.identity(4, format="csr"))
+    cache = StageCache(tmp_path)
+    cache.save("final_fit", "k" * 64, fresh)
+    back = cache.load("final_fit", "k" * 64, Fit)
+    assert back.count == 3 and (back.affinity != fresh.affinity).nnz == 0
+    pd.testing.assert_frame_equal(back.table, fresh.table)

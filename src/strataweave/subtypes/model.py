@@ -17,6 +17,7 @@ import numpy as np
 import pandas as pd
 
 from strataweave.caution import CAUTION
+from strataweave.codec import prefixed, unprefixed
 from strataweave.data.preprocess import Preprocessor
 from strataweave.errors import InputError
 from strataweave.factorize import JointNMF
@@ -43,14 +44,6 @@ class ModelModality:
     @property
     def n_features(self) -> int | None:
         return None if self.preprocessor is None else len(self.preprocessor.output_features_)
-
-
-def _prefixed(prefix: str, arrays: Mapping[str, np.ndarray]) -> dict[str, np.ndarray]:
-    return {f"{prefix}{name}": np.asarray(value) for name, value in arrays.items()}
-
-
-def _unprefixed(prefix: str, arrays: Mapping[str, np.ndarray]) -> dict[str, np.ndarray]:
-    return {name[len(prefix):]: value for name, value in arrays.items() if name.startswith(prefix)}
 
 
 class SubtypeModel:
@@ -146,11 +139,11 @@ class SubtypeModel:
             state = None
             if modality.preprocessor is not None:
                 state, parts = modality.preprocessor.to_state()
-                arrays.update(_prefixed(f"m{i}_", parts))
+                arrays.update(prefixed(f"m{i}_", parts))
             modalities.append({"name": modality.name, "kind": modality.kind, "orientation": modality.orientation,
                                "weight": modality.weight, "preprocessor": state})
         factorization, parts = self.factorization_.to_state()
-        arrays.update(_prefixed("nmf_", parts))
+        arrays.update(prefixed("nmf_", parts))
         description = {
             "format": MODEL_FORMAT,
             "caution": CAUTION,
@@ -175,10 +168,10 @@ class SubtypeModel:
                 if missing:
                     raise KeyError(missing[0])
                 state = entry["preprocessor"]
-                preprocessor = None if state is None else Preprocessor.from_state(state, _unprefixed(f"m{i}_", arrays))
+                preprocessor = None if state is None else Preprocessor.from_state(state, unprefixed(f"m{i}_", arrays))
                 modalities.append(ModelModality(entry["name"], entry["kind"], float(entry["weight"]),
                                                 entry["orientation"], preprocessor))
-            factorization = JointNMF.from_state(description["factorization"], _unprefixed("nmf_", arrays))
+            factorization = JointNMF.from_state(description["factorization"], unprefixed("nmf_", arrays))
             return cls(factorization, modalities, description["subtypes"], arrays["centres"],
                        description["far_threshold"], description["training_patients"])
         except (KeyError, TypeError) as problem:  # hand-edited or truncated, not a fault of the program

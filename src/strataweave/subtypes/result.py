@@ -1,4 +1,4 @@
-"""What a sweep of subtype counts returns, and its JSON-ready form for results.json."""
+"""What a sweep of subtype counts returns, its JSON-ready form for results.json, and its saved state."""
 
 from __future__ import annotations
 
@@ -8,6 +8,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 import pandas as pd
 
+from strataweave.codec import decode, encode, prefixed, unprefixed
 from strataweave.factorize import JointNMF
 from strataweave.subtypes.baselines import BASELINE_METHODS
 from strataweave.subtypes.recommend import Recommendation, recommend_count
@@ -53,6 +54,11 @@ def named_assignments(assignments: pd.DataFrame) -> pd.DataFrame:
     names = subtype_names(count)
     renamed = assignments.rename(columns={f"score_{j}": f"score_{name}" for j, name in enumerate(names)})
     return renamed.assign(subtype=subtype_labels(assignments["subtype"], count))
+
+
+#: The fields of a SweepResult that `to_state` stores through the codec (pandas and numpy objects).
+CODEC_FIELDS = ("patients", "criteria", "consensus", "consensus_patients", "assignments", "resample_labels",
+                "baseline_labels", "baselines", "partitions", "flow")
 
 
 @dataclass(frozen=True)
@@ -110,6 +116,41 @@ class SweepResult:
             self.criteria, min_size=settings.min_size, pac_tolerance=settings.pac_tolerance, user_count=count
         )
         return replace(self, settings=settings, recommendation=choice)
+
+    def to_state(self) -> tuple[dict, dict[str, np.ndarray]]:
+        """(JSON-safe dict, arrays for .npz) from which `from_state` rebuilds the sweep: the tables through the
+        codec, each count's JointNMF by its own `to_state` plus its patient factor (arrays `model<k>_...`)."""
+        tables, arrays = encode({name: getattr(self, name) for name in CODEC_FIELDS})
+        models = {}
+        for k, model in self.models.items():
+            models[str(k)], parts = model.to_state()
+            arrays.update(prefixed(f"model{k}_", {**parts, "patient_factor": model.patient_factor_}))
+        state = {
+            "tables": tables,
+            "counts": [int(k) for k in self.counts],
+            "models": models,
+            "recommendation": self.recommendation.to_dict(),
+            "settings": self.settings.to_dict(),
+            "unconverged": int(self.unconverged),
+        }
+        return state, arrays
+
+    @classmethod
+    def from_state(cls, state: dict, arrays) -> "SweepResult":
+        """The sweep that `to_state` saved (arrays as loaded with allow_pickle=False)."""
+        models = {}
+        for key, model_state in state["models"].items():
+            parts = unprefixed(f"model{key}_", arrays)
+            models[int(key)] = JointNMF.from_state(model_state, parts)
+            models[int(key)].patient_factor_ = parts["patient_factor"]
+        return cls(
+            **decode(state["tables"], arrays),
+            counts=list(state["counts"]),
+            models=models,
+            recommendation=Recommendation(**state["recommendation"]),
+            settings=SweepSettings(**state["settings"]),
+            unconverged=int(state["unconverged"]),
+        )
 
     def to_dict(self) -> dict:
         """results.json sections: subtype_count, selection, subtypes, baselines (NaN as None)."""

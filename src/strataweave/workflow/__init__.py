@@ -4,7 +4,7 @@ One job per module, each importing only the modules listed above it:
 
 - `config`: the workflow file: value rules, one dataclass per section, the parser, `Workflow`.
 - `progress`: what the terminal shows while a run works (`Feedback`: bars and lines on stderr).
-- `cache`: the stage cache in `stages/` (codec, keys, entries), the pipeline that runs stages
+- `cache`: the stage cache in `stages/` (keys, entries, typed results), the pipeline that runs stages
   against it, and the finished resamples of an unfinished sweep.
 - `stages`: what each stage computes (load, prepare, graphs, sweep, select, final_fit,
   evaluate), the grouping a run reports, and the stage list with what each key covers.

@@ -6,11 +6,11 @@ stages that depend on it. Each finished result is one JSON + one `.npz`: the `.n
 written first and the JSON last, each atomically, so a result counts as finished only once
 its JSON exists; the JSON carries the sha256 of both, so an entry damaged later is told
 apart from a good one. Arrays are read back with `allow_pickle=False`; nothing is ever
-unpickled.
+unpickled. A typed result (`Stateful`: `to_state` / `from_state`) stores its own state;
+any other result goes through the codec of `strataweave.codec`.
 
-Sections: the codec (stage results to JSON plus arrays and back), keys and stored
-entries, the pipeline (compute what is missing, load what is finished), and the finished
-resamples of an unfinished sweep.
+Sections: keys and stored entries, the pipeline (compute what is missing, load what is
+finished), and the finished resamples of an unfinished sweep.
 """
 
 from __future__ import annotations
@@ -22,183 +22,14 @@ import time
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Protocol
+from typing import Protocol, runtime_checkable
 
 import numpy as np
-import pandas as pd
-import scipy.sparse as sp
 
-from strataweave.errors import DamagedFileError
+from strataweave.codec import decode, encode
+from strataweave.errors import DamagedFileError, InputError
 from strataweave.files import read_checked, write_checked
 from strataweave.subtypes.tasks import ResampleFit, fit_resample
-
-# ---------------------------------------------------------------------------------------------
-# The codec: lossless conversion of nested stage results to JSON plus named numpy arrays (no pickle).
-#
-# A stage result is any nesting of dicts, lists, tuples, scalars, strings, None, numpy
-# arrays, scipy sparse matrices and pandas Index / Series / DataFrame objects. `encode`
-# splits it into a JSON-ready tree and a dict of arrays for an `.npz` file; `decode`
-# rebuilds an equal object (same dtypes, same labels) so that tables written from a cached
-# result are byte for byte those written from a fresh one. Object arrays are never stored:
-# text becomes fixed-width unicode with a missing-value mask.
-# ---------------------------------------------------------------------------------------------
-
-class _Encoder:
-    def __init__(self) -> None:
-        self.arrays: dict[str, np.ndarray] = {}
-
-    def array(self, values: np.ndarray) -> dict:
-        name = f"a{len(self.arrays)}"
-        if values.dtype == object:
-            return self.text_array(values)
-        self.arrays[name] = np.ascontiguousarray(values)
-        return {"$array": name}
-
-    def text_array(self, values: np.ndarray) -> dict:
-        """Object array of str / None / NaN / bool as unicode (or bool) plus a missing mask."""
-        flat = values.ravel()
-        missing = pd.isna(flat)
-        present = flat[~missing]
-        if all(isinstance(v, (bool, np.bool_)) for v in present):
-            filled = np.where(missing, False, flat).astype(bool)
-        elif all(isinstance(v, str) for v in present):
-            filled = np.where(missing, "", flat).astype(str)
-        else:
-            raise TypeError(f"cannot store an object array holding {type(present[0]).__name__} values")
-        name = f"a{len(self.arrays)}"
-        self.arrays[name] = filled.reshape(values.shape)
-        mask_name = f"a{len(self.arrays)}"
-        self.arrays[mask_name] = missing.reshape(values.shape)
-        return {"$objects": name, "missing": mask_name}
-
-    def index(self, index: pd.Index) -> dict:
-        return {"$index": self.array(index.to_numpy()), "name": self.value(index.name)}
-
-    def frame(self, frame: pd.DataFrame) -> dict:
-        columns = self.index(frame.columns)
-        index = self.index(frame.index)
-        dtypes = frame.dtypes.unique()
-        if frame.shape[1] > 0 and len(dtypes) == 1 and isinstance(dtypes[0], np.dtype) and dtypes[0] != object:
-            return {"$frame": "block", "index": index, "columns": columns, "values": self.array(frame.to_numpy())}
-        return {
-            "$frame": "columns",
-            "index": index,
-            "columns": columns,
-            "values": [self.column(frame.iloc[:, i]) for i in range(frame.shape[1])],
-        }
-
-    def column(self, series: pd.Series) -> dict:
-        if isinstance(series.dtype, pd.CategoricalDtype):
-            return {
-                "$category": self.array(series.cat.codes.to_numpy()),
-                "categories": self.index(series.cat.categories),
-                "ordered": bool(series.cat.ordered),
-            }
-        if not isinstance(series.dtype, np.dtype):
-            raise TypeError(f"cannot store a column of dtype {series.dtype}")
-        return self.array(series.to_numpy())
-
-    def value(self, obj: object) -> object:
-        if obj is None or isinstance(obj, (bool, str)):
-            return obj
-        if isinstance(obj, (int, np.integer)) and not isinstance(obj, np.bool_):
-            return int(obj)
-        if isinstance(obj, np.bool_):
-            return bool(obj)
-        if isinstance(obj, (float, np.floating)):
-            return {"$float": repr(float(obj))} if not np.isfinite(obj) else float(obj)
-        if isinstance(obj, Path):
-            return str(obj)
-        if isinstance(obj, np.ndarray):
-            return self.array(obj)
-        if sp.issparse(obj):
-            csr = sp.csr_matrix(obj)
-            return {
-                "$sparse": [self.array(csr.data), self.array(csr.indices), self.array(csr.indptr)],
-                "shape": list(csr.shape),
-            }
-        if isinstance(obj, pd.DataFrame):
-            return self.frame(obj)
-        if isinstance(obj, pd.Series):
-            return {"$series": self.column(obj), "index": self.index(obj.index), "name": self.value(obj.name)}
-        if isinstance(obj, pd.Index):
-            return self.index(obj)
-        if isinstance(obj, dict):
-            if all(isinstance(k, str) and not k.startswith("$") for k in obj):
-                return {k: self.value(v) for k, v in obj.items()}
-            return {"$pairs": [[self.value(k), self.value(v)] for k, v in obj.items()]}
-        if isinstance(obj, tuple):
-            return {"$tuple": [self.value(v) for v in obj]}
-        if isinstance(obj, list):
-            return [self.value(v) for v in obj]
-        raise TypeError(f"cannot store a {type(obj).__name__} in the stage cache")
-
-
-def encode(obj: object) -> tuple[object, dict[str, np.ndarray]]:
-    """Split `obj` into a JSON-ready tree and the arrays it refers to."""
-    encoder = _Encoder()
-    tree = encoder.value(obj)
-    return tree, encoder.arrays
-
-
-def _array(ref: dict, arrays) -> np.ndarray:
-    if "$objects" in ref:
-        values = arrays[ref["$objects"]].astype(object)
-        values[arrays[ref["missing"]]] = None
-        return values
-    return arrays[ref["$array"]]
-
-
-def _index(ref: dict, arrays) -> pd.Index:
-    return pd.Index(_array(ref["$index"], arrays), name=decode(ref["name"], arrays))
-
-
-def _column(ref: dict, arrays) -> object:
-    if "$category" in ref:
-        categories = _index(ref["categories"], arrays)
-        dtype = pd.CategoricalDtype(categories, ordered=ref["ordered"])
-        return pd.Categorical.from_codes(_array(ref["$category"], arrays), dtype=dtype)
-    return _array(ref, arrays)
-
-
-def _frame(tree: dict, arrays) -> pd.DataFrame:
-    index = _index(tree["index"], arrays)
-    columns = _index(tree["columns"], arrays)
-    if tree["$frame"] == "block":
-        return pd.DataFrame(_array(tree["values"], arrays), index=index, columns=columns)
-    data = {i: _column(ref, arrays) for i, ref in enumerate(tree["values"])}
-    frame = pd.DataFrame(data, index=index)
-    frame.columns = columns
-    return frame
-
-
-def decode(tree: object, arrays) -> object:
-    """Rebuild the object that `encode` split into `tree` and `arrays`."""
-    if isinstance(tree, list):
-        return [decode(v, arrays) for v in tree]
-    if not isinstance(tree, dict):
-        return tree
-    if "$float" in tree:
-        return float(tree["$float"])
-    if "$array" in tree or "$objects" in tree:
-        return _array(tree, arrays)
-    if "$sparse" in tree:
-        data, indices, indptr = (_array(ref, arrays) for ref in tree["$sparse"])
-        return sp.csr_matrix((data, indices, indptr), shape=tuple(tree["shape"]))
-    if "$frame" in tree:
-        return _frame(tree, arrays)
-    if "$series" in tree:
-        return pd.Series(
-            _column(tree["$series"], arrays), index=_index(tree["index"], arrays), name=decode(tree["name"], arrays)
-        )
-    if "$index" in tree:
-        return _index(tree, arrays)
-    if "$pairs" in tree:
-        return {decode(k, arrays): decode(v, arrays) for k, v in tree["$pairs"]}
-    if "$tuple" in tree:
-        return tuple(decode(v, arrays) for v in tree["$tuple"])
-    return {k: decode(v, arrays) for k, v in tree.items()}
-
 
 # ---------------------------------------------------------------------------------------------
 # Keys and stored entries
@@ -225,6 +56,16 @@ def stage_key(stage: str, parameters: dict, upstream: dict[str, str]) -> str:
     return hashlib.sha256(text.encode("utf-8")).hexdigest()
 
 
+@runtime_checkable
+class Stateful(Protocol):
+    """A typed stage result: a JSON-ready state plus named arrays, and the class method that rebuilds it."""
+
+    def to_state(self) -> tuple[dict, dict[str, np.ndarray]]: ...
+
+    @classmethod
+    def from_state(cls, state: dict, arrays) -> "Stateful": ...
+
+
 class StageCache:
     """Finished stage results of one run folder."""
 
@@ -245,20 +86,24 @@ class StageCache:
 
     def save(self, stage: str, key: str, result: object) -> None:
         """Store a stage result under its key: the JSON tree last, so a half-written entry never counts."""
-        tree, arrays = encode(result)
+        field, (tree, arrays) = ("state", result.to_state()) if isinstance(result, Stateful) else ("result", encode(result))
         json_path, npz_path = self._paths(stage, key)
-        write_checked(json_path, npz_path, {"stage": stage, "key": key, "result": tree}, arrays)
+        write_checked(json_path, npz_path, {"stage": stage, "key": key, field: tree}, arrays)
         shutil.rmtree(self.work_folder(stage, key), ignore_errors=True)
 
-    def load(self, stage: str, key: str) -> object:
-        """The stage result stored under `key`; DamagedFileError if the entry does not read back as written."""
+    def load(self, stage: str, key: str, result_type: type[Stateful] | None = None) -> object:
+        """The stage result stored under `key` (rebuilt by `result_type.from_state` when given, else decoded);
+        DamagedFileError if the entry does not read back as written (or holds the other kind of result)."""
         json_path, npz_path = self._paths(stage, key)
         record, arrays = read_checked(json_path, npz_path)
-        if record.get("key") != key or "result" not in record:
-            raise DamagedFileError(json_path, f"holds no result for key {key[:16]}")
+        field = "result" if result_type is None else "state"
+        if record.get("key") != key or field not in record:
+            raise DamagedFileError(json_path, f"holds no {field} for key {key[:16]}")
         try:
+            if result_type is not None:
+                return result_type.from_state(record["state"], arrays)
             return decode(record["result"], arrays)
-        except (KeyError, TypeError, ValueError, AttributeError) as error:
+        except (KeyError, TypeError, ValueError, AttributeError, InputError) as error:
             raise DamagedFileError(json_path, f"does not match its arrays ({type(error).__name__}: {error})") from None
 
     def prune(self, keep: dict[str, str]) -> None:
@@ -290,13 +135,15 @@ WORK = "work_folder"
 
 @dataclass(frozen=True)
 class Stage:
-    """One step of a run: `compute(inputs)` gets the results of `needs` by name."""
+    """One step of a run: `compute(inputs)` gets the results of `needs` by name; a typed result
+    names its class in `result_type`, so the cache rebuilds it with `from_state`."""
 
     name: str
     needs: tuple[str, ...]
     parameters: dict
     compute: Callable[[dict[str, object]], object]
     keeps_work: bool = False
+    result_type: type[Stateful] | None = None
 
 
 class StageListener(Protocol):
@@ -353,7 +200,7 @@ class Pipeline:
             return _MISSING
         self.listener.stage_started(name, cached=True)
         try:
-            return self.cache.load(name, key)
+            return self.cache.load(name, key, self.stages[name].result_type)
         except DamagedFileError as damage:
             self.listener.notice(f"{damage.path}: {damage.reason}; computing stage {name!r} again")
             return _MISSING

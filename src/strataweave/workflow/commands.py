@@ -67,7 +67,6 @@ from strataweave.workflow.stages import (
     check_gene_sets,
     left_out_patients,
     load_inputs,
-    normalised_views,
 )
 
 
@@ -217,7 +216,7 @@ def _run_stages(flow: Workflow, folder: RunFolder, manifest: dict, hashes: dict,
 
     check_columns(flow, pipeline.result("load")["clinical"])
     if flow.modalities:
-        check_gene_sets(flow, normalised_views(pipeline.result("prepare")))
+        check_gene_sets(flow, pipeline.result("prepare").normalised_views)
     results = {name: pipeline.result(name) for name in pipeline.stages}
     recorder.stage_started("report", cached=False)
     start = time.perf_counter()

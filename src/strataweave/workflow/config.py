@@ -9,7 +9,9 @@ Sections, in the order they build on each other:
 - the sections of the file: one frozen dataclass per section, one field per key (the field
   name is the TOML key, its rule sits in `metadata["rule"]`, a field without a default is
   required), so a key exists in exactly one place;
-- the `Workflow` and the parser that reads the sections' definitions.
+- the `Workflow` and the parser that reads the sections' definitions;
+- the reference of every key (`workflow_reference`, written to workflows/REFERENCE.md by
+  `python -m strataweave.workflow.config`), read from the same definitions.
 """
 
 from __future__ import annotations
@@ -56,6 +58,12 @@ class RuleBroken(Exception):
     """A value does not fit its rule; the argument says what was expected."""
 
 
+def _rule(check: Rule, expected: str) -> Rule:
+    """`check` as a rule that also says what it accepts (`rule.expected`, for the reference)."""
+    check.expected = expected
+    return check
+
+
 def _is_integer(value: object) -> bool:
     return isinstance(value, int) and not isinstance(value, bool)
 
@@ -97,7 +105,7 @@ def integer(minimum: int | None = None, maximum: int | None = None) -> Rule:
             raise RuleBroken(expected)
         return int(value)
 
-    return rule
+    return _rule(rule, expected)
 
 
 def number(minimum: float | None = None, maximum: float | None = None, above: float | None = None) -> Rule:
@@ -109,7 +117,7 @@ def number(minimum: float | None = None, maximum: float | None = None, above: fl
             raise RuleBroken(expected)
         return float(value)
 
-    return rule
+    return _rule(rule, expected)
 
 
 def text(pattern: str | None = None, describe: str = "a text string") -> Rule:
@@ -123,7 +131,7 @@ def text(pattern: str | None = None, describe: str = "a text string") -> Rule:
             raise RuleBroken(describe)
         return value
 
-    return rule
+    return _rule(rule, describe)
 
 
 def choice(*options: str) -> Rule:
@@ -135,7 +143,7 @@ def choice(*options: str) -> Rule:
             raise RuleBroken(expected)
         return str(value)
 
-    return rule
+    return _rule(rule, expected)
 
 
 def flag() -> Rule:
@@ -146,7 +154,7 @@ def flag() -> Rule:
             raise RuleBroken("true or false")
         return value
 
-    return rule
+    return _rule(rule, "true or false")
 
 
 def list_of(item: Rule, describe: str, allow_single: bool = False, unique: bool = True) -> Rule:
@@ -164,7 +172,7 @@ def list_of(item: Rule, describe: str, allow_single: bool = False, unique: bool 
             raise RuleBroken(describe + " without repeats")
         return converted
 
-    return rule
+    return _rule(rule, describe)
 
 
 def either(first: Rule, second: Rule, describe: str) -> Rule:
@@ -178,7 +186,7 @@ def either(first: Rule, second: Rule, describe: str) -> Rule:
                 continue
         raise RuleBroken(describe)
 
-    return rule
+    return _rule(rule, describe)
 
 
 def existing_file() -> Rule:
@@ -193,7 +201,7 @@ def existing_file() -> Rule:
             raise RuleBroken(f"an existing file (looked for {resolved})")
         return resolved
 
-    return rule
+    return _rule(rule, "the path of an existing file, relative to the workflow file's folder")
 
 
 # ---------------------------------------------------------------------------------------------
@@ -237,9 +245,9 @@ class ModalitySettings:
     The preprocessing keys are those of `strataweave.data.Preprocessor`.
     """
 
-    name: str = key(text(SAFE_NAME, "a name of letters, digits, '_', '.', '-'"))
-    path: Path = key(existing_file())
-    kind: str = key(choice(*KINDS))
+    name: str = key(text(SAFE_NAME, "a name of letters, digits, '_', '.', '-'"), doc="the layer's name in every output")
+    path: Path = key(existing_file(), doc="the layer's matrix file")
+    kind: str = key(choice(*KINDS), doc="what the values are; sets the normalisation")
     orientation: str | None = key(choice(*ORIENTATIONS), None, doc="omitted = detect")
     weight: float = key(number(above=0), 1.0, doc="relative weight in the factorisation")
     prior_count: float = key(number(above=0), PREPROCESSING["prior_count"], doc="counts: added before log2 CPM")
@@ -248,19 +256,19 @@ class ModalitySettings:
         doc="counts: median_ratio (robust to a few dominant features) or total",
     )
     beta_to_m: bool = key(flag(), PREPROCESSING["beta_to_m"], doc="beta: use M-values")
-    quantile_normalise: bool = key(flag(), PREPROCESSING["quantile_normalise"])
+    quantile_normalise: bool = key(flag(), PREPROCESSING["quantile_normalise"], doc="quantile-normalise across patients")
     max_missing_fraction: float = key(
         number(0, 1), PREPROCESSING["max_missing_fraction"], doc="drop features missing in more patients"
     )
-    min_variance: float = key(number(minimum=0), PREPROCESSING["min_variance"])
+    min_variance: float = key(number(minimum=0), PREPROCESSING["min_variance"], doc="drop near-constant features")
     top_features: int = key(
         integer(1), ANALYSIS_DEFAULTS["top_features"],
         doc="keep this many features, ranked by rank_by (an analysis caps what NMF sees)",
     )
-    rank_by: str = key(choice(*RANKINGS), PREPROCESSING["rank_by"])
-    impute: str = key(choice(*IMPUTERS), PREPROCESSING["impute"])
-    impute_neighbours: int = key(integer(1), PREPROCESSING["impute_neighbours"])
-    scale: str = key(choice(*SCALINGS), PREPROCESSING["scale"])
+    rank_by: str = key(choice(*RANKINGS), PREPROCESSING["rank_by"], doc="how top_features ranks the features")
+    impute: str = key(choice(*IMPUTERS), PREPROCESSING["impute"], doc="how missing cells of measured patients are filled")
+    impute_neighbours: int = key(integer(1), PREPROCESSING["impute_neighbours"], doc="neighbours of impute = knn")
+    scale: str = key(choice(*SCALINGS), PREPROCESSING["scale"], doc="scaling of each feature")
     non_negative: str = key(
         choice(*NON_NEGATIVITY), ANALYSIS_DEFAULTS["non_negative"],
         doc="how the NMF gets non-negative data; split keeps the sign of scaled data without an offset "
@@ -277,10 +285,14 @@ class ModalitySettings:
 class GraphSettings:
     """[graph]: per-modality patient-similarity graphs and the rule that fuses them."""
 
-    n_neighbours: int = key(integer(2), default_of(fuse_modalities, "n_neighbours"))
-    metric: str = key(choice(*METRICS), default_of(fuse_modalities, "metric"))
-    kernel: str = key(choice(*KERNELS), default_of(fuse_modalities, "kernel"))
-    rule: str = key(choice(*RULES), default_of(fuse_modalities, "rule"))
+    n_neighbours: int = key(integer(2), default_of(fuse_modalities, "n_neighbours"), doc="neighbours kept per patient")
+    metric: str = key(choice(*METRICS), default_of(fuse_modalities, "metric"), doc="distance between patients")
+    kernel: str = key(choice(*KERNELS), default_of(fuse_modalities, "kernel"), doc="how distances become affinities")
+    rule: str = key(
+        choice(*RULES), default_of(fuse_modalities, "rule"),
+        doc="how the modality graphs are fused; auto: the intersection, a quorum or the average, whichever "
+        "graph the modalities themselves confirm most",
+    )
     quorum: int | None = key(integer(1), None, doc="modalities that must agree (rule = quorum)")
     neighbour_search: str = key(
         choice(*SEARCHES), default_of(fuse_modalities, "neighbour_search"),
@@ -293,14 +305,19 @@ class GraphSettings:
 class FactorizationSettings:
     """[factorization]: the graph-regularised joint NMF."""
 
-    graph_weight: float = key(number(minimum=0), default_of(JointNMF, "graph_weight"))
+    graph_weight: float = key(
+        number(minimum=0), default_of(JointNMF, "graph_weight"), doc="weight of the graph smoothness, free of cohort size"
+    )
     n_restarts: int = key(
         integer(1), SweepSettings.resample_restarts,
         doc="full-data fits per count, the lowest objective wins; as many as each resample has",
     )
-    max_iter: int = key(integer(1), default_of(JointNMF, "max_iter"))
-    tol: float = key(number(above=0), default_of(JointNMF, "tol"))
-    init: str = key(choice(*INIT_METHODS), default_of(JointNMF, "init"))
+    max_iter: int = key(integer(1), default_of(JointNMF, "max_iter"), doc="most iterations of one fit")
+    tol: float = key(
+        number(above=0), default_of(JointNMF, "tol"),
+        doc="settled when the objective falls by less than this share of the zero model's, three iterations in a row",
+    )
+    init: str = key(choice(*INIT_METHODS), default_of(JointNMF, "init"), doc="the starting factors with start_from = init")
     start_from: str = key(
         choice(*START_FROM), SweepSettings.start_from,
         doc="graph: start each fit from the spectral partition of its fused graph; init: from `init`",
@@ -313,18 +330,19 @@ class SubtypeSettings:
 
     counts: tuple[int, ...] = key(
         list_of(integer(2), "an integer >= 2 or a list of them", allow_single=True),
-        (2, 3, 4, 5, 6),
+        (2, 3, 4, 5, 6), doc="subtype counts to try; one value = a fixed count",
     )
     use_count: int | str = key(
         either(choice("recommended"), integer(2), "'recommended' or an integer >= 2"),
-        "recommended",
+        "recommended", doc="or one of the counts, to override the recommendation",
     )
     min_size: int | None = key(
         integer(1), SweepSettings.min_size,
         doc="never recommend a count with a smaller subtype (default: 2 % of the patients, at least 5)",
     )
     pac_window: tuple[float, ...] = key(
-        list_of(number(0, 1), "two numbers between 0 and 1, lower first"), SweepSettings.pac_window
+        list_of(number(0, 1), "two numbers between 0 and 1, lower first"), SweepSettings.pac_window,
+        doc="consensus values counted as ambiguous by PAC",
     )
     pac_tolerance: float = key(number(minimum=0), SweepSettings.pac_tolerance, doc="PAC differences below this are ties")
     core_threshold: float = key(number(0, 1), SweepSettings.core_threshold, doc="mean consensus with the own subtype")
@@ -338,7 +356,7 @@ class SubtypeSettings:
 class ResamplingSettings:
     """[resampling]: the consensus resamples and where they run."""
 
-    n_resamples: int = key(integer(2), SweepSettings.n_resamples)
+    n_resamples: int = key(integer(2), SweepSettings.n_resamples, doc="resamples per subtype count")
     fraction: float = key(number(maximum=1, above=0), SweepSettings.fraction, doc="share of patients per resample")
     feature_fraction: float = key(number(maximum=1, above=0), SweepSettings.feature_fraction, doc="share of features per resample")
     resample_restarts: int = key(integer(1), SweepSettings.resample_restarts, doc="NMF restarts per resample")
@@ -352,7 +370,9 @@ class ResamplingSettings:
 class EvaluationSettings:
     """[evaluation]: survival, clinical association, markers and enrichment."""
 
-    covariates: tuple[str, ...] = key(list_of(text(), "a list of column names"), ())
+    covariates: tuple[str, ...] = key(
+        list_of(text(), "a list of column names"), (), doc="Cox model: the subtype plus these columns"
+    )
     strata: str | None = key(text(), None, doc="clinical column for a stratified log-rank test")
     clinical_columns: tuple[str, ...] | None = key(
         list_of(text(), "a list of column names"), None, doc="omitted = all other columns"
@@ -363,30 +383,47 @@ class EvaluationSettings:
     n_monte_carlo: int = key(
         integer(100), default_of(associate_clinical, "n_monte_carlo"), doc="draws for exact p-values of sparse tables"
     )
-    rmst_horizon: float | None = key(number(above=0), None)
-    n_permutations: int = key(integer(0), default_of(evaluate_survival, "n_permutations"))
-    min_group_size: int = key(integer(1), default_of(evaluate_survival, "min_group_size"))
-    marker_test: str = key(choice(*TESTS), default_of(find_markers, "marker_test"))
-    marker_fdr: float = key(number(maximum=1, above=0), default_of(find_markers, "marker_fdr"))
-    markers_per_subtype: int = key(integer(1), default_of(find_markers, "markers_per_subtype"))
-    gene_sets: Path | None = key(existing_file(), None)
+    rmst_horizon: float | None = key(
+        number(above=0), None, doc="restricted mean survival time horizon; omitted = the shortest follow-up of the groups"
+    )
+    n_permutations: int = key(
+        integer(0), default_of(evaluate_survival, "n_permutations"), doc="permutations of the log-rank p-value"
+    )
+    min_group_size: int = key(
+        integer(1), default_of(evaluate_survival, "min_group_size"), doc="smaller groups are not tested"
+    )
+    marker_test: str = key(
+        choice(*TESTS), default_of(find_markers, "marker_test"), doc="test of each feature, subtype against the rest"
+    )
+    marker_fdr: float = key(
+        number(maximum=1, above=0), default_of(find_markers, "marker_fdr"),
+        doc="Benjamini-Hochberg level for markers and gene sets",
+    )
+    markers_per_subtype: int = key(
+        integer(1), default_of(find_markers, "markers_per_subtype"), doc="top markers per subtype in the report"
+    )
+    gene_sets: Path | None = key(existing_file(), None, doc="gene-set file; omitted = no enrichment")
     gene_set_format: str = key(choice("lines", "table"), "lines", doc="set, description, members / set, gene")
     gene_set_modality: str | None = key(text(), None, doc="modality whose markers are tested; omitted = first")
-    sets_per_subtype: int = key(integer(1), default_of(enrich_markers, "sets_per_subtype"))
-    min_set_size: int = key(integer(1), default_of(enrich_markers, "min_set_size"))
-    max_set_size: int = key(integer(1), default_of(enrich_markers, "max_set_size"))
+    sets_per_subtype: int = key(
+        integer(1), default_of(enrich_markers, "sets_per_subtype"), doc="top gene sets per subtype in the report"
+    )
+    min_set_size: int = key(integer(1), default_of(enrich_markers, "min_set_size"), doc="smallest gene set tested")
+    max_set_size: int = key(integer(1), default_of(enrich_markers, "max_set_size"), doc="largest gene set tested")
 
 
 @dataclass(frozen=True)
 class ReportSettings:
     """[report]: what the report looks like and what it may show."""
 
-    title: str = key(text(), "Patient subtypes")
+    title: str = key(text(), "Patient subtypes", doc="title of the report and the slides")
     formats: tuple[str, ...] = key(
         list_of(choice("html", "pdf"), "a list of 'html' and/or 'pdf'"), ("html", "pdf"),
         doc="[] = tables and results.json only, no figures or report",
     )
-    show_patient_ids: bool = key(flag(), False)
+    show_patient_ids: bool = key(
+        flag(), False, doc="patient IDs in the report too (never in the slides; always in assignments.tsv)"
+    )
 
 
 SECTIONS = {
@@ -414,6 +451,7 @@ RENAMED_KEYS = {
 # ---------------------------------------------------------------------------------------------
 
 TOP_LEVEL_RULES = {"seed": integer(0, 2**32 - 1)}
+DEFAULT_SEED = 0
 
 
 @dataclass(frozen=True)
@@ -555,7 +593,7 @@ def parse_workflow(text: str, source: Path, require_modalities: bool = True) -> 
             raise InputError(f"{label}: unknown key '{name}', expected one of: {', '.join(allowed)}")
     if "cohort" not in document:
         raise InputError(f"{label}: missing key 'cohort' (required table [cohort])")
-    seed = 0
+    seed = DEFAULT_SEED
     if "seed" in document:
         try:
             seed = TOP_LEVEL_RULES["seed"](document["seed"], base_dir)
@@ -582,3 +620,53 @@ def load_workflow(path: str | Path, require_modalities: bool = True) -> Workflow
     except UnicodeDecodeError as problem:
         raise InputError(f"{path.name}: not UTF-8 text (byte {problem.start})") from None
     return parse_workflow(text, path, require_modalities=require_modalities)
+
+
+# ---------------------------------------------------------------------------------------------
+# The reference of every key, read from the section definitions above
+# ---------------------------------------------------------------------------------------------
+
+REFERENCE_FILE = "workflows/REFERENCE.md"
+
+
+def _shown(value: object) -> str:
+    """A default as written in a workflow file (None: the key is left out)."""
+    if value is None:
+        return "left out"
+    if isinstance(value, bool):
+        return str(value).lower()
+    if isinstance(value, (tuple, list)):
+        return "[" + ", ".join(_shown(item) for item in value) + "]"
+    return f'"{value}"' if isinstance(value, str) else str(value)
+
+
+def _row(key: str, rule: Rule, default: object, doc: str) -> str:
+    cells = [f"`{key}`", rule.expected, default, doc]
+    return "| " + " | ".join(str(cell).replace("|", "\\|") for cell in cells) + " |"
+
+
+def workflow_reference() -> str:
+    """Every key of a workflow file as Markdown, one table per section: what it accepts, its default, its help."""
+    header = ["| key | accepts | default | meaning |", "| --- | --- | --- | --- |"]
+    lines = [
+        "# Workflow file keys",
+        "",
+        f"Generated from `src/strataweave/workflow/config.py` by `python -m strataweave.workflow.config > {REFERENCE_FILE}`",
+        "(a test keeps it in step). `workflows/synthetic_cohort.toml` shows every key in use.",
+        "",
+        "## Top level",
+        "",
+        *header,
+        _row("seed", TOP_LEVEL_RULES["seed"], DEFAULT_SEED, "one seed for the whole run; each stage gets its own child seed"),
+    ]
+    for cls in (CohortSettings, ModalitySettings, *[cls for cls in SECTIONS.values() if cls is not CohortSettings]):
+        title, _, summary = cls.__doc__.partition("\n")[0].partition(": ")
+        lines += ["", f"## {title}", "", summary[:1].upper() + summary[1:], "", *header]
+        for spec in fields(cls):
+            default = "required" if spec.default is dataclasses.MISSING else _shown(spec.default)
+            lines.append(_row(spec.name, spec.metadata["rule"], default, spec.metadata["doc"]))
+    return "\n".join(lines) + "\n"
+
+
+if __name__ == "__main__":
+    print(workflow_reference(), end="")

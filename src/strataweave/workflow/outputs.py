@@ -19,24 +19,25 @@ from sklearn.decomposition import PCA
 from sklearn.metrics import silhouette_samples
 
 from strataweave.caution import CAUTION
-from strataweave.data.preprocess import Preprocessor
 from strataweave.data.qc import unmatched_counts
 from strataweave.data.scaling import NEGATIVE_SUFFIX, POSITIVE_SUFFIX
 from strataweave.evaluate.result import plain
+from strataweave.factorize import JointNMF
 from strataweave.files import atomic_write_arrays, atomic_write_text, write_table
 from strataweave.report.contract import FIGURE_DATA_FILE, RESULTS_FILE, check_figure_data, check_results
 from strataweave.subtypes.model import ModelModality, SubtypeModel
+from strataweave.subtypes.result import SweepResult
 from strataweave.workflow.config import Workflow
 from strataweave.workflow.progress import Feedback
 from strataweave.workflow.run_folder import RunFolder
 from strataweave.workflow.stages import (
     NOT_RUN,
+    FinalFit,
+    PreparedCohort,
     ReportedGrouping,
     analysis_patients,
     chosen_sweep,
     given_grouping,
-    model_from_record,
-    normalised_views,
     subtype_grouping,
 )
 
@@ -70,7 +71,7 @@ def write_tables(folder: Path, stage_results: dict, grouping: ReportedGrouping) 
     (+ enrichment_rank_test) (.tsv), each when it ran."""
     _table(_assignments(grouping), folder / "assignments.tsv")
     if "sweep" in stage_results:
-        _table(stage_results["sweep"]["criteria"].reset_index(), folder / "rank_selection.tsv")
+        _table(stage_results["sweep"].criteria.reset_index(), folder / "rank_selection.tsv")
     evaluation = stage_results["evaluate"]
     if "survival" in evaluation:
         _table(_survival_table(evaluation["survival"]["tables"]), folder / "survival.tsv")
@@ -109,7 +110,7 @@ def write_outputs(folder: RunFolder, flow: Workflow, stage_results: dict, manife
     groups_given = "final_fit" not in stage_results
     results = build_results(flow, stage_results, grouping, groups_given)
     prepared = stage_results.get("prepare")
-    views = normalised_views(prepared) if prepared is not None else {}
+    views = prepared.normalised_views if prepared is not None else {}
     arrays = build_figure_data(stage_results, results, grouping, views, flow.report.show_patient_ids)
     check_results(results)
     check_figure_data(arrays, results)
@@ -117,7 +118,7 @@ def write_outputs(folder: RunFolder, flow: Workflow, stage_results: dict, manife
     folder.clear_outputs()
     write_tables(folder.path, stage_results, grouping)
     if not groups_given:
-        write_model(folder.path / "model", flow, prepared, stage_results["final_fit"])
+        write_model(folder.path / "model", flow, prepared, stage_results["sweep"], stage_results["final_fit"])
     atomic_write_arrays(folder.path / FIGURE_DATA_FILE, arrays)
     atomic_write_text(folder.path / RESULTS_FILE, json.dumps(results, indent=1, allow_nan=False) + "\n")
     folder.write_manifest(manifest)
@@ -151,7 +152,7 @@ def parameters(flow: Workflow) -> dict:
     )
 
 
-def _cohort(grouping: ReportedGrouping, prepared: dict | None, show_patient_ids: bool) -> dict:
+def _cohort(grouping: ReportedGrouping, prepared: PreparedCohort | None, show_patient_ids: bool) -> dict:
     """Patients and modalities as analysed; patients of a matrix absent from the clinical table are counted.
 
     `unmatched` counts the left-out modality patients per modality and reason (a case-only
@@ -160,13 +161,13 @@ def _cohort(grouping: ReportedGrouping, prepared: dict | None, show_patient_ids:
     """
     section: dict = {"patients": len(grouping.patients), "modalities": []}
     if prepared is not None:
-        measured = prepared["presence"].loc[grouping.patients]
-        for row in prepared["qc"]:
+        measured = prepared.presence.loc[grouping.patients]
+        for row in prepared.qc:
             section["modalities"].append({**row, "patients": int(measured[row["name"]].sum())})
-        section["left_out_not_in_clinical"] = prepared["dropped"]
-        section["unmatched"] = unmatched_counts(prepared["unmatched"]).to_dict("records")
+        section["left_out_not_in_clinical"] = prepared.dropped
+        section["unmatched"] = unmatched_counts(prepared.unmatched).to_dict("records")
         if show_patient_ids:
-            section["unmatched_patients"] = prepared["unmatched"].to_dict("records")
+            section["unmatched_patients"] = prepared.unmatched.to_dict("records")
     return section
 
 
@@ -210,7 +211,7 @@ def build_results(
     }
     results["cohort"] = _cohort(grouping, prepared, flow.report.show_patient_ids)
     if "graphs" in stage_results:
-        results["graph"] = stage_results["graphs"]["summary"]
+        results["graph"] = stage_results["graphs"].summary
     if groups_given:
         results["subtypes"] = {"labels": grouping.names, "sizes": grouping.sizes, "given": True}
     else:
@@ -247,15 +248,15 @@ def build_results(
 MAX_CONSENSUS_SIDE = 600
 
 
-def _consensus_arrays(sweep: dict) -> dict[str, np.ndarray]:
+def _consensus_arrays(sweep: SweepResult) -> dict[str, np.ndarray]:
     """Each count's consensus ordered by its subtypes, evenly thinned to at most 600 patients."""
     arrays = {}
-    for k in sweep["counts"]:
-        codes = sweep["assignments"][k]["subtype"].to_numpy(dtype=np.int64)[sweep["consensus_patients"]]
+    for k in sweep.counts:
+        codes = sweep.assignments[k]["subtype"].to_numpy(dtype=np.int64)[sweep.consensus_patients]
         order = np.argsort(codes, kind="stable")
         if order.size > MAX_CONSENSUS_SIDE:
             order = order[np.unique(np.linspace(0, order.size - 1, MAX_CONSENSUS_SIDE).round().astype(np.int64))]
-        arrays[f"consensus_k{k}"] = np.asarray(sweep["consensus"][k], dtype=np.float32)[np.ix_(order, order)]
+        arrays[f"consensus_k{k}"] = np.asarray(sweep.consensus[k], dtype=np.float32)[np.ix_(order, order)]
         arrays[f"consensus_k{k}_codes"] = codes[order]
     return arrays
 
@@ -300,7 +301,7 @@ def build_figure_data(
     prepared = stage_results.get("prepare")
     n = len(grouping.patients)
     presence = (
-        prepared["presence"].loc[grouping.patients].to_numpy(dtype=bool) if prepared is not None
+        prepared.presence.loc[grouping.patients].to_numpy(dtype=bool) if prepared is not None
         else np.zeros((n, 0), dtype=bool)
     )
     arrays = {
@@ -312,8 +313,8 @@ def build_figure_data(
     if show_patient_ids:
         arrays["patient_ids"] = np.asarray(grouping.patients, dtype=str)
     if "graphs" in stage_results:
-        positions = prepared["patients"].get_indexer(grouping.patients)
-        arrays["embedding"] = np.asarray(stage_results["graphs"]["embedding"], dtype=np.float64)[positions]
+        positions = prepared.patients.get_indexer(grouping.patients)
+        arrays["embedding"] = np.asarray(stage_results["graphs"].embedding, dtype=np.float64)[positions]
     if "sweep" in stage_results:
         arrays.update(_consensus_arrays(stage_results["sweep"]))
     evaluation = stage_results["evaluate"]
@@ -323,7 +324,8 @@ def build_figure_data(
     if views:
         arrays.update(modality_map_arrays(names, views, grouping))
     if "final_fit" in stage_results:
-        arrays.update(factor_arrays(names, stage_results["final_fit"]["model"], prepared["views"], grouping))
+        model = stage_results["sweep"].models[stage_results["final_fit"].count]
+        arrays.update(factor_arrays(names, model, prepared.views, grouping))
     markers = evaluation.get("markers") or {}
     for i, section in enumerate(results.get("markers", [])):
         arrays.update(_marker_arrays(i, views[section["modality"]], section["rows"], grouping))
@@ -404,11 +406,10 @@ def _display_names(features: pd.Index) -> np.ndarray:
     return text.to_numpy(dtype=str)
 
 
-def factor_arrays(names: list[str], model_record: dict, factor_views: dict[str, pd.DataFrame],
+def factor_arrays(names: list[str], model: JointNMF, factor_views: dict[str, pd.DataFrame],
                   grouping: ReportedGrouping) -> dict[str, np.ndarray]:
     """Share of each factor's loading held by each modality (M x r, columns sum to 1), the top loadings of each
     factor across modalities, and the mean patient factor of each subtype (K x r)."""
-    model = model_from_record(model_record)
     # sum_v alpha_v ||H_v[k]||^2 = 1 (JointNMF's scaling), so alpha_v H_v[k, f]^2 is feature f's share of factor k
     shares = [weight * np.square(loadings) for weight, loadings in zip(model.modality_weights_, model.components_)]
     row_of = [names.index(name) for name in model.view_names_]
@@ -420,7 +421,7 @@ def factor_arrays(names: list[str], model_record: dict, factor_views: dict[str, 
     features = np.concatenate([_display_names(factor_views[name].columns) for name in model.view_names_])
     modality = np.concatenate([np.full(share.shape[1], row) for share, row in zip(shares, row_of)])
     top = np.argsort(-every, axis=1, kind="stable")[:, :TOP_LOADINGS]
-    patient_factor = np.asarray(model_record["patient_factor"], dtype=np.float64)
+    patient_factor = np.asarray(model.patient_factor_, dtype=np.float64)
     membership = np.eye(len(grouping.names))[grouping.codes]
     return {
         "factor_contribution": contribution,
@@ -454,17 +455,16 @@ def volcano_arrays(i: int, table: pd.DataFrame, fdr: float, grouping: ReportedGr
 # model/: the run's SubtypeModel (fitted preprocessing, joint NMF, subtype centres), as JSON plus `.npz`.
 # ---------------------------------------------------------------------------------------------
 
-def run_model(flow: Workflow, prepared: dict, fitted: dict) -> SubtypeModel:
+def run_model(flow: Workflow, prepared: PreparedCohort, sweep: SweepResult, fitted: FinalFit) -> SubtypeModel:
     """The final fit of a run with every modality's fitted preprocessing, weight and file layout."""
     modalities = [
-        ModelModality(m.name, m.kind, m.weight, m.orientation,
-                      Preprocessor.from_state(**prepared["preprocessors"][m.name]))
+        ModelModality(m.name, m.kind, m.weight, m.orientation, prepared.preprocessors[m.name])
         for m in flow.modalities
     ]
-    return SubtypeModel(model_from_record(fitted["model"]), modalities, fitted["names"], fitted["centres"],
-                        fitted["far_threshold"], len(prepared["patients"]))
+    return SubtypeModel(sweep.models[fitted.count], modalities, fitted.names, fitted.centres, fitted.far_threshold,
+                        len(prepared.patients))
 
 
-def write_model(folder: Path, flow: Workflow, prepared: dict, fitted: dict) -> None:
+def write_model(folder: Path, flow: Workflow, prepared: PreparedCohort, sweep: SweepResult, fitted: FinalFit) -> None:
     """Save the run's model into `folder` (what `strataweave assign` reads)."""
-    run_model(flow, prepared, fitted).save(folder)
+    run_model(flow, prepared, sweep, fitted).save(folder)

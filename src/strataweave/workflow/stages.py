@@ -3,11 +3,13 @@
 run:      load -> prepare -> graphs -> sweep -> select -> final_fit -> evaluate
 evaluate: load -> prepare (only with modalities) -> evaluate (of the grouping given)
 
-Each stage turns the results of the stages it reads into plain containers (dicts of
-pandas, numpy and scipy objects) that the stage cache stores without pickle; the numeric
-layers do the work. A stage's parameters hold exactly the settings its result depends on:
-where the resamples run (backend, n_jobs, scheduler) is left out because the results do not
-depend on it, and input files enter by their sha256, not their path.
+From prepare on, each stage turns the results of the stages it reads into a typed result
+with `to_state` / `from_state` (PreparedCohort, FusedGraph, the numeric layer's SweepResult,
+FinalFit), rebuilt once when read from the cache; load, select and evaluate give plain dicts
+of pandas, numpy and scipy objects for the codec. The numeric layers do the work. A
+stage's parameters hold exactly the settings its result depends on: where the resamples run
+(backend, n_jobs, scheduler) is left out because the results do not depend on it, and input
+files enter by their sha256, not their path.
 
 Sections: load, prepare, graphs, sweep / select / final fit, the grouping a run reports,
 evaluate, and last the list of stages.
@@ -16,7 +18,7 @@ evaluate, and last the list of stages.
 from __future__ import annotations
 
 import dataclasses
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, fields, replace
 from pathlib import Path
 
 import numpy as np
@@ -25,7 +27,9 @@ import scipy.sparse as sp
 from scipy.sparse.csgraph import connected_components
 
 from strataweave.data.assembly import cohort_from_tables
+from strataweave.codec import CodecState, decode, encode, prefixed, unprefixed
 from strataweave.data.cohort import Cohort
+from strataweave.data.preprocess import Preprocessor
 from strataweave.data.qc import applied_filters, qc_summary
 from strataweave.data.readers import read_clinical, read_matrix
 from strataweave.errors import InputError
@@ -36,9 +40,8 @@ from strataweave.evaluate.grouping import group_order
 from strataweave.evaluate.markers import markers_by_modality, untestable_modality
 from strataweave.evaluate.outcome import read_outcome
 from strataweave.evaluate.survival import evaluate_survival, untestable_outcome
-from strataweave.factorize import JointNMF
 from strataweave.factorize.views import relative_modality_weights
-from strataweave.graph import fuse_modalities, graph_diagnostics, modality_agreement, spectral_embedding
+from strataweave.graph import fuse_modalities, modality_agreement, spectral_embedding
 from strataweave.seeding import child_seeds
 from strataweave.subtypes.parallel import ParallelSettings, available_cores
 from strataweave.subtypes.projection import placement, project_patients
@@ -98,9 +101,9 @@ def load_inputs(flow: Workflow) -> dict:
 # modality, in clinical order), the presence table, the aligned views (all-NaN rows where a
 # modality is missing, which is how the factorisation is told about a missing modality) and
 # the table of modality patients left out (absent from the clinical table, or differing from
-# a clinical ID only in case: reported, never merged). The stage result holds these as
-# pandas objects so that the stage cache stays JSON + npz. The patient graph and the marker
-# tests read `normalised_views` instead: the same data before the sign split.
+# a clinical ID only in case: reported, never merged). The stage result, a PreparedCohort,
+# holds these as pandas objects beside the fitted preprocessors. The patient graph and the
+# marker tests read `normalised_views` instead: the same data before the sign split.
 # ---------------------------------------------------------------------------------------------
 
 #: Version of the prepare stage's result: part of its cache key, so that a run folder
@@ -134,36 +137,63 @@ def qc_rows(cohort: Cohort) -> list[dict]:
     ]
 
 
-def prepare_cohort(flow: Workflow, loaded: dict) -> dict:
-    """The prepare stage's result: what the later stages and `assign` need, from the Cohort."""
+@dataclass(frozen=True)
+class PreparedCohort:
+    """What the later stages and `assign` need from the Cohort.
+
+    views: each modality's NMF input on its own patients; aligned_views: the same on every
+    analysis patient, all-NaN rows where one lacks it (Cohort.aligned_views); normalised_views:
+    each modality on its normalised scale, for the patient graphs and the markers
+    (Cohort.normalised_views); qc: one results.json row per modality; unmatched: the modality
+    patients left out, and dropped their count per modality.
+    """
+
+    patients: pd.Index
+    views: dict[str, pd.DataFrame]
+    aligned_views: list[pd.DataFrame]
+    normalised_views: dict[str, pd.DataFrame]
+    preprocessors: dict[str, Preprocessor]
+    presence: pd.DataFrame
+    qc: list[dict]
+    unmatched: pd.DataFrame
+    dropped: dict[str, int]
+
+    def to_state(self) -> tuple[dict, dict[str, np.ndarray]]:
+        """(JSON-safe dict, arrays for .npz): the tables through the codec, each modality's preprocessor by
+        its own `to_state` (arrays `p<position>_...`)."""
+        tables, arrays = encode({f.name: getattr(self, f.name) for f in fields(self) if f.name != "preprocessors"})
+        preprocessors = []
+        for position, (name, preprocessor) in enumerate(self.preprocessors.items()):
+            state, parts = preprocessor.to_state()
+            preprocessors.append({"name": name, "state": state})
+            arrays.update(prefixed(f"p{position}_", parts))
+        return {"tables": tables, "preprocessors": preprocessors}, arrays
+
+    @classmethod
+    def from_state(cls, state: dict, arrays) -> "PreparedCohort":
+        """The prepared cohort that `to_state` saved."""
+        preprocessors = {
+            entry["name"]: Preprocessor.from_state(entry["state"], unprefixed(f"p{position}_", arrays))
+            for position, entry in enumerate(state["preprocessors"])
+        }
+        return cls(**decode(state["tables"], arrays), preprocessors=preprocessors)
+
+
+def prepare_cohort(flow: Workflow, loaded: dict) -> PreparedCohort:
+    """The prepare stage's result, from the Cohort of the workflow's modalities."""
     cohort = build_cohort(flow, loaded)
     unmatched = cohort.unmatched["modality"].value_counts()
-    preprocessors = {}
-    for modality in cohort.modalities:
-        state, arrays = modality.preprocessor.to_state()
-        preprocessors[modality.name] = {"state": state, "arrays": arrays}
-    return {
-        "patients": cohort.patients,
-        "views": {m.name: m.data for m in cohort.modalities},
-        "aligned_views": cohort.aligned_views(),
-        "normalised_views": cohort.normalised_views(),
-        "preprocessors": preprocessors,
-        "presence": cohort.presence,
-        "qc": qc_rows(cohort),
-        "unmatched": cohort.unmatched,
-        "dropped": {name: int(unmatched.get(name, 0)) for name in cohort.names},
-    }
-
-
-def normalised_views(prepared: dict) -> dict[str, pd.DataFrame]:
-    """Each modality on its normalised scale, one column per feature: for patient graphs and markers
-    (Cohort.normalised_views)."""
-    return prepared["normalised_views"]
-
-
-def aligned_views(prepared: dict) -> list[pd.DataFrame]:
-    """Every modality on the analysis patients, all-NaN rows where a patient lacks it (Cohort.aligned_views)."""
-    return prepared["aligned_views"]
+    return PreparedCohort(
+        patients=cohort.patients,
+        views={m.name: m.data for m in cohort.modalities},
+        aligned_views=cohort.aligned_views(),
+        normalised_views=cohort.normalised_views(),
+        preprocessors={m.name: m.preprocessor for m in cohort.modalities},
+        presence=cohort.presence,
+        qc=qc_rows(cohort),
+        unmatched=cohort.unmatched,
+        dropped={name: int(unmatched.get(name, 0)) for name in cohort.names},
+    )
 
 
 # ---------------------------------------------------------------------------------------------
@@ -174,10 +204,20 @@ def aligned_views(prepared: dict) -> list[pd.DataFrame]:
 EVIDENCE_COLUMNS = ("rule", "quorum", "confirmed_share", "fallback_patients", "chosen")
 
 
-def build_graph(flow: Workflow, prepared: dict, seed: int, feedback: Feedback) -> dict:
-    """The fused affinity on the analysis patients (their order), its diagnostics and a 2-D embedding."""
+@dataclass(frozen=True)
+class FusedGraph(CodecState):
+    """The graphs stage's result: the fused affinity on the analysis patients (their order), its 2-D
+    spectral embedding and the results.json `graph` section."""
+
+    affinity: sp.csr_matrix
+    embedding: np.ndarray
+    summary: dict
+
+
+def build_graph(flow: Workflow, prepared: PreparedCohort, seed: int, feedback: Feedback) -> FusedGraph:
+    """The fused graph of the workflow's modalities, with the rule's evidence and the modalities' agreement."""
     settings = flow.graph
-    views = normalised_views(prepared)
+    views = prepared.normalised_views
     with feedback.bar("patient graphs", 2 * len(views)) as progress:
         graph = fuse_modalities(
             views,
@@ -190,15 +230,15 @@ def build_graph(flow: Workflow, prepared: dict, seed: int, feedback: Feedback) -
             random_state=seed,
             progress=progress,
         )
-    graph = graph.restrict(prepared["patients"])
+    graph = graph.restrict(prepared.patients)
     affinity = sp.csr_matrix(graph.affinity)
     agreement = modality_agreement(graph)
     names = list(agreement.index)
     n_components, _ = connected_components(affinity, directed=False)
-    return {
-        "affinity": affinity,
-        "embedding": spectral_embedding(affinity, n_dims=2),
-        "summary": {
+    return FusedGraph(
+        affinity=affinity,
+        embedding=spectral_embedding(affinity, n_dims=2),
+        summary={
             "rule": graph.rule,
             "quorum": graph.parameters["quorum"],
             "rule_requested": graph.parameters["rule_requested"],
@@ -216,8 +256,7 @@ def build_graph(flow: Workflow, prepared: dict, seed: int, feedback: Feedback) -
                 for b in names[i + 1:]
             ],
         },
-        "diagnostics": graph_diagnostics(graph).reset_index(),
-    }
+    )
 
 
 def _number(value: float) -> float | None:
@@ -225,7 +264,7 @@ def _number(value: float) -> float | None:
 
 
 # ---------------------------------------------------------------------------------------------
-# The sweep, select and final-fit stages, and the cacheable record of a sweep.
+# The sweep, select and final-fit stages.
 #
 # The sweep fits every count on all patients and on the resamples. Select applies the
 # recommendation rule, or the count the workflow fixes, without rerunning the sweep. The
@@ -234,7 +273,7 @@ def _number(value: float) -> float | None:
 # centres and the distance beyond which a new patient is far from every subtype.
 # ---------------------------------------------------------------------------------------------
 
-def factorization_options(flow: Workflow, prepared: dict) -> dict:
+def factorization_options(flow: Workflow, prepared: PreparedCohort) -> dict:
     """JointNMF keyword arguments from the workflow (rank and seed are set per fit)."""
     settings = flow.factorization
     options = {
@@ -244,7 +283,7 @@ def factorization_options(flow: Workflow, prepared: dict) -> dict:
         "init": settings.init,
         "n_restarts": settings.n_restarts,
     }
-    weights = relative_modality_weights(list(prepared["views"].values()), [m.weight for m in flow.modalities])
+    weights = relative_modality_weights(list(prepared.views.values()), [m.weight for m in flow.modalities])
     if weights is not None:
         options["modality_weights"] = weights
     return options
@@ -268,22 +307,21 @@ def sweep_settings(flow: Workflow) -> SweepSettings:
 
 
 def run_sweep(
-    flow: Workflow, prepared: dict, graphs: dict, seed: int, feedback: Feedback, work: Path | None = None
-) -> dict:
-    """Sweep the workflow's counts, each finished resample kept in `work` (if given) for a resumed
-    sweep; the result as a cacheable record (see `sweep_from_record`)."""
+    flow: Workflow, prepared: PreparedCohort, graphs: FusedGraph, seed: int, feedback: Feedback, work: Path | None = None
+) -> SweepResult:
+    """Sweep the workflow's counts, each finished resample kept in `work` (if given) for a resumed sweep."""
     settings = sweep_settings(flow)
-    views = dict(zip(prepared["views"], aligned_views(prepared)))
-    profiles = {name: frame.reindex(prepared["patients"]) for name, frame in normalised_views(prepared).items()}
+    views = dict(zip(prepared.views, prepared.aligned_views))
+    profiles = {name: frame.reindex(prepared.patients) for name, frame in prepared.normalised_views.items()}
     parallel = ParallelSettings(
         backend=flow.resampling.backend, n_jobs=flow.resampling.n_jobs or available_cores(),
         scheduler=flow.resampling.scheduler,
         checkpoint=None if work is None else ResampleCheckpoint(work, feedback.say),
     )
     with feedback.bar("subtype count sweep", planned_tasks(flow.subtypes.counts, settings)) as progress:
-        result = sweep_subtype_counts(
+        return sweep_subtype_counts(
             views,
-            graphs["affinity"],
+            graphs.affinity,
             flow.subtypes.counts,
             profiles=profiles,
             settings=settings,
@@ -292,106 +330,54 @@ def run_sweep(
             random_state=seed,
             progress=progress,
         )
-    return sweep_record(result)
 
 
-def _model_record(model: JointNMF) -> dict:
-    state, arrays = model.to_state()
-    return {"state": state, "arrays": arrays, "patient_factor": model.patient_factor_}
-
-
-def model_from_record(record: dict) -> JointNMF:
-    model = JointNMF.from_state(record["state"], record["arrays"])
-    model.patient_factor_ = record["patient_factor"]
-    return model
-
-
-def sweep_record(result: SweepResult) -> dict:
-    """A SweepResult as plain containers the stage cache stores losslessly."""
-    return {
-        "patients": result.patients,
-        "counts": list(result.counts),
-        "criteria": result.criteria,
-        "consensus": result.consensus,
-        "consensus_patients": result.consensus_patients,
-        "assignments": result.assignments,
-        "resample_labels": result.resample_labels,
-        "baseline_labels": result.baseline_labels,
-        "baselines": result.baselines,
-        "partitions": result.partitions,
-        "flow": result.flow,
-        "models": {k: _model_record(model) for k, model in result.models.items()},
-        "recommendation": result.recommendation.to_dict(),
-        "settings": result.settings.to_dict(),
-        "unconverged": int(result.unconverged),
-    }
-
-
-def sweep_from_record(record: dict) -> SweepResult:
-    """The SweepResult that `sweep_record` stored."""
-    settings = dict(record["settings"])
-    settings["pac_window"] = tuple(settings["pac_window"])
-    return SweepResult(
-        patients=record["patients"],
-        counts=list(record["counts"]),
-        criteria=record["criteria"],
-        consensus=record["consensus"],
-        consensus_patients=record["consensus_patients"],
-        assignments=record["assignments"],
-        resample_labels=record["resample_labels"],
-        baseline_labels=record["baseline_labels"],
-        baselines=record["baselines"],
-        partitions=record["partitions"],
-        flow=record["flow"],
-        models={k: model_from_record(model) for k, model in record["models"].items()},
-        recommendation=Recommendation(**record["recommendation"]),
-        settings=SweepSettings(**settings),
-        unconverged=record["unconverged"],
-    )
-
-
-def select_count(flow: Workflow, sweep: dict) -> dict:
+def select_count(flow: Workflow, sweep: SweepResult) -> dict:
     """The count to use: the rule's recommendation, or the workflow's `subtypes.use_count`."""
     fixed = flow.subtypes.use_count if isinstance(flow.subtypes.use_count, int) else None
-    chosen = sweep_from_record(sweep).with_user_count(fixed)
+    chosen = sweep.with_user_count(fixed)
     return {"count": int(chosen.count), "user_count": fixed, "recommendation": chosen.recommendation.to_dict()}
 
 
-def chosen_sweep(sweep: dict, selected: dict) -> SweepResult:
+def chosen_sweep(sweep: SweepResult, selected: dict) -> SweepResult:
     """The sweep with the selected count's recommendation."""
-    result = sweep_from_record(sweep)
     return replace(
-        result,
-        settings=replace(result.settings, user_count=selected["user_count"]),
+        sweep,
+        settings=replace(sweep.settings, user_count=selected["user_count"]),
         recommendation=Recommendation(**selected["recommendation"]),
     )
 
 
-def final_fit(prepared: dict, sweep: dict, selected: dict) -> dict:
-    """Model, labels and scores at the chosen count, with the subtype centres for new patients.
+@dataclass(frozen=True)
+class FinalFit(CodecState):
+    """The final fit's result: the chosen count, the subtype names, the sweep's assignments at that
+    count, and the subtype centres and far threshold that place new patients (the model itself
+    stays in the sweep: `sweep.models[count]`)."""
+
+    count: int
+    names: list[str]
+    assignments: pd.DataFrame
+    centres: np.ndarray
+    far_threshold: float
+
+    @property
+    def labels(self) -> pd.Series:
+        """Subtype names per patient (S1, S2, ...)."""
+        return subtype_labels(self.assignments["subtype"], self.count)
+
+
+def final_fit(prepared: PreparedCohort, sweep: SweepResult, selected: dict) -> FinalFit:
+    """Labels and scores at the chosen count, with the subtype centres for new patients.
 
     New patients get their patient factor by projection on the loadings (no graph), so the
     centres and the far threshold are taken from the training patients projected the same
     way: a training patient passed back through `assign` then meets the centres it helped make.
     """
     count = selected["count"]
-    model = sweep["models"][count]
-    assignments = sweep["assignments"][count]
+    assignments = sweep.assignments[count]
     labels = assignments["subtype"].to_numpy()
-    centres, far = placement(project_patients(model_from_record(model), aligned_views(prepared)), labels, count)
-    return {
-        "count": count,
-        "names": subtype_names(count),
-        "model": model,
-        "assignments": assignments,
-        "centres": centres,
-        "far_threshold": far,
-    }
-
-
-def final_labels(fitted: dict) -> pd.Series:
-    """Subtype names per patient (S1, S2, ...)."""
-    return subtype_labels(fitted["assignments"]["subtype"], fitted["count"])
+    centres, far = placement(project_patients(sweep.models[count], prepared.aligned_views), labels, count)
+    return FinalFit(count, subtype_names(count), assignments, centres, far)
 
 
 # ---------------------------------------------------------------------------------------------
@@ -418,10 +404,10 @@ class ReportedGrouping:
         return [int(n) for n in np.bincount(self.codes, minlength=len(self.names))]
 
 
-def subtype_grouping(fitted: dict) -> ReportedGrouping:
+def subtype_grouping(fitted: FinalFit) -> ReportedGrouping:
     """The final subtypes of a run, with the labeller's confidence and scores."""
-    assignments = fitted["assignments"]
-    names = list(fitted["names"])
+    assignments = fitted.assignments
+    names = list(fitted.names)
     scores = assignments[[f"score_{j}" for j in range(len(names))]].copy()
     scores.columns = [f"score_{name}" for name in names]
     return ReportedGrouping(
@@ -434,9 +420,9 @@ def subtype_grouping(fitted: dict) -> ReportedGrouping:
     )
 
 
-def analysis_patients(loaded: dict, prepared: dict | None) -> pd.Index:
+def analysis_patients(loaded: dict, prepared: PreparedCohort | None) -> pd.Index:
     """Clinical patients measured on at least one modality (all clinical patients without modalities)."""
-    return prepared["patients"] if prepared is not None else loaded["clinical"].index
+    return prepared.patients if prepared is not None else loaded["clinical"].index
 
 
 def given_grouping(groups: pd.Series, patients: pd.Index) -> ReportedGrouping:
@@ -533,9 +519,9 @@ def _survival(flow: Workflow, clinical: pd.DataFrame, labels: pd.Series, seed, f
         )
 
 
-def _markers(flow: Workflow, prepared: dict | None, labels: pd.Series) -> tuple[object | None, dict[str, str]]:
+def _markers(flow: Workflow, prepared: PreparedCohort | None, labels: pd.Series) -> tuple[object | None, dict[str, str]]:
     """Markers of every modality that can be tested (None if none can), and why the others are not run."""
-    views = normalised_views(prepared) if prepared is not None else {}
+    views = prepared.normalised_views if prepared is not None else {}
     if not views:
         return None, {"markers": "no omics layers in the workflow"}
     testable, reasons = {}, {}
@@ -556,7 +542,7 @@ def _markers(flow: Workflow, prepared: dict | None, labels: pd.Series) -> tuple[
 
 
 def evaluate_grouping(
-    flow: Workflow, clinical: pd.DataFrame, prepared: dict | None, labels: pd.Series, seed: int, feedback: Feedback
+    flow: Workflow, clinical: pd.DataFrame, prepared: PreparedCohort | None, labels: pd.Series, seed: int, feedback: Feedback
 ) -> dict:
     """Every evaluation the workflow asks for, as {part: {"tables": ..., "summary": ...}}, the labels and `not_run`."""
     settings = flow.evaluation
@@ -653,7 +639,8 @@ def _prepare_stage(flow: Workflow) -> Stage:
         "layout": RESULT_LAYOUT,
         "modalities": [{"name": m.name, **m.preprocessing()} for m in flow.modalities],
     }
-    return Stage("prepare", ("load",), parameters, lambda inputs: prepare_cohort(flow, inputs["load"]))
+    return Stage("prepare", ("load",), parameters, lambda inputs: prepare_cohort(flow, inputs["load"]),
+                 result_type=PreparedCohort)
 
 
 def _evaluation_parameters(flow: Workflow, hashes: dict[str, str], seed: int) -> dict:
@@ -697,21 +684,21 @@ def build_stages(
     }
     stages += [
         Stage("graphs", ("prepare",), _graph_parameters(flow, seeds["graphs"]),
-              lambda inputs: build_graph(flow, inputs["prepare"], seeds["graphs"], feedback)),
+              lambda inputs: build_graph(flow, inputs["prepare"], seeds["graphs"], feedback), result_type=FusedGraph),
         Stage("sweep", ("prepare", "graphs"), sweep_parameters,
               lambda inputs: run_sweep(flow, inputs["prepare"], inputs["graphs"], seeds["sweep"], feedback,
                                        inputs[WORK]),
-              keeps_work=True),
+              keeps_work=True, result_type=SweepResult),
         Stage("select", ("sweep",), {"use_count": flow.subtypes.use_count},
               lambda inputs: select_count(flow, inputs["sweep"])),
         Stage("final_fit", ("prepare", "sweep", "select"), {},
-              lambda inputs: final_fit(inputs["prepare"], inputs["sweep"], inputs["select"])),
+              lambda inputs: final_fit(inputs["prepare"], inputs["sweep"], inputs["select"]), result_type=FinalFit),
         Stage(
             "evaluate",
             ("load", "prepare", "final_fit"),
             evaluation,
             lambda inputs: evaluate_grouping(
-                flow, inputs["load"]["clinical"], inputs["prepare"], final_labels(inputs["final_fit"]),
+                flow, inputs["load"]["clinical"], inputs["prepare"], inputs["final_fit"].labels,
                 seeds["evaluate"], feedback,
             ),
         ),

@@ -38,7 +38,7 @@ from strataweave.subtypes.baselines import concatenated_scaled  # noqa: E402
 from strataweave.workflow.config import load_workflow  # noqa: E402
 from strataweave.workflow.progress import QUIET, Feedback  # noqa: E402
 from strataweave.workflow.stages import (  # noqa: E402
-    build_graph, final_fit, load_inputs, normalised_views, prepare_cohort, run_sweep, select_count,
+    build_graph, final_fit, load_inputs, prepare_cohort, run_sweep, select_count,
 )
 
 SEED = 20261202
@@ -92,21 +92,21 @@ def run_cohort(name, layers, kinds, truth, counts, extra="") -> dict:
         graphs = build_graph(flow, prepared, flow.seed, feedback)
         sweep = run_sweep(flow, prepared, graphs, flow.seed, feedback)
         selected = select_count(flow, sweep)
-        chosen = final_fit(prepared, sweep, selected)["assignments"]["subtype"]
+        chosen = final_fit(prepared, sweep, selected).assignments["subtype"]
         seconds = time.perf_counter() - start
-    patients = prepared["patients"]
+    patients = prepared.patients
     truth = truth.loc[patients]
     if KEEP is not None:
-        ari = {k: adjusted_rand_score(truth, table["subtype"]) for k, table in sweep["assignments"].items()}
-        sweep["criteria"].assign(rule=selected["count"], ari=pd.Series(ari)).to_csv(KEEP / f"{name}_criteria.tsv", sep="\t")
+        ari = {k: adjusted_rand_score(truth, table["subtype"]) for k, table in sweep.assignments.items()}
+        sweep.criteria.assign(rule=selected["count"], ari=pd.Series(ari)).to_csv(KEEP / f"{name}_criteria.tsv", sep="\t")
         np.savez_compressed(
             KEEP / f"{name}_sweep.npz", truth=truth.to_numpy(),
-            **{f"labels_{k}": table["subtype"].to_numpy() for k, table in sweep["assignments"].items()},
-            **{f"consensus_{k}": matrix.astype(np.float16) for k, matrix in sweep["consensus"].items()},
-            **{f"resamples_{k}": labels for k, labels in sweep["resample_labels"].items()},
+            **{f"labels_{k}": table["subtype"].to_numpy() for k, table in sweep.assignments.items()},
+            **{f"consensus_{k}": matrix.astype(np.float16) for k, matrix in sweep.consensus.items()},
+            **{f"resamples_{k}": labels for k, labels in sweep.resample_labels.items()},
         )
-    given = sweep["assignments"][true_count]["subtype"] if true_count in sweep["assignments"] else None
-    views = {key: frame.reindex(patients) for key, frame in normalised_views(prepared).items()}
+    given = sweep.assignments[true_count]["subtype"] if true_count in sweep.assignments else None
+    views = {key: frame.reindex(patients) for key, frame in prepared.normalised_views.items()}
     row = {"cohort": name, "patients": len(patients), "views": len(layers), "true": true_count,
            **_baselines(views, truth, true_count)}
     row.update(
