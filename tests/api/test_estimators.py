@@ -48,7 +48,7 @@ class CheckedJointNMF(sw.JointNMF):
 
     def __sklearn_tags__(self):
         tags = super().__sklearn_tags__()
-        tags.transformer_tags = TransformerTags()
+        tags.transformer_tags = TransformerTags(preserves_dtype=[self.dtype])  # output in the model's dtype
         tags.input_tags.positive_only = True
         return tags
 

@@ -7,6 +7,7 @@ against the bundled workflow as written (about two minutes).
 
 from __future__ import annotations
 
+import json
 import os
 import re
 from pathlib import Path
@@ -85,3 +86,27 @@ def test_the_saved_model_places_patients_as_the_cli_assign(runs, capsys):
     for column in ("subtype", "modalities_used", "far_from_subtypes"):
         assert (python[column] == cli[column]).all(), column
     pd.testing.assert_series_equal(python["confidence"], cli["confidence"], check_names=False, rtol=1e-5)
+
+
+FINGERPRINT = Path(__file__).with_name("demo_fingerprint.json")
+
+
+def _fingerprint(run: Path) -> dict:
+    """The bundled cohort's subtypes and count criteria (at RESAMPLES resamples), in a comparable form."""
+    labels = pd.read_csv(run / "assignments.tsv", sep="\t", comment="#", index_col="patient_id")["subtype"]
+    criteria = pd.read_csv(run / "rank_selection.tsv", sep="\t", comment="#", index_col="count")
+    return {"subtypes": labels.to_dict(),
+            **{name: criteria[name].round(4).to_dict() for name in ("pac", "stability", "smallest_subtype")}}
+
+
+@pytest.mark.skipif(FULL, reason="the fingerprint is of the run with fewer resamples")
+def test_speed_work_leaves_the_demo_subtypes_and_criteria_as_they_were(runs):
+    # A change meant to alter results rewrites the file (STRATAWEAVE_NEW_FINGERPRINT=1) and says so
+    # in its commit; any other change must leave it as it is.
+    found = json.loads(json.dumps(_fingerprint(runs["folder"] / "cli")))  # keys as JSON keeps them
+    if os.environ.get("STRATAWEAVE_NEW_FINGERPRINT") == "1":
+        FINGERPRINT.write_text(json.dumps(found, indent=1, sort_keys=True) + "\n", encoding="utf-8")
+    expected = json.loads(FINGERPRINT.read_text(encoding="utf-8"))
+    assert found["subtypes"] == expected["subtypes"]
+    for name in ("pac", "stability", "smallest_subtype"):
+        assert found[name] == pytest.approx(expected[name], abs=2e-4), name

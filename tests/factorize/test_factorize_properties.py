@@ -93,7 +93,8 @@ def test_warm_start_from_a_fit_converges_at_once(cohort):
 def test_graph_weight_means_the_same_at_any_data_scale(cohort):
     # alpha_v = 1/||X_v||^2 and the relative graph weight make the fit free of the data's units.
     views, _, affinity = cohort
-    fits = [JointNMF(3, graph_weight=1.0, max_iter=50, random_state=0).fit([v * c for v in views], affinity)
+    # Identities checked to float64 precision, so the fits run in float64 (the default is float32).
+    fits = [JointNMF(3, graph_weight=1.0, max_iter=50, random_state=0, dtype="float64").fit([v * c for v in views], affinity)
             for c in (1.0, 1000.0)]
     np.testing.assert_allclose(fits[0].objective_, fits[1].objective_, rtol=1e-8)
     np.testing.assert_allclose(fits[0].patient_factor_, fits[1].patient_factor_, rtol=1e-7, atol=1e-12)
@@ -101,7 +102,7 @@ def test_graph_weight_means_the_same_at_any_data_scale(cohort):
 
 def test_loadings_are_normalised(cohort):
     views, _, affinity = cohort
-    model = JointNMF(3, graph_weight=1.0, max_iter=30, random_state=0).fit(views, affinity)
+    model = JointNMF(3, graph_weight=1.0, max_iter=30, random_state=0, dtype="float64").fit(views, affinity)
     norms = sum(a * np.sum(H**2, axis=1) for a, H in zip(model.modality_weights_, model.components_))
     np.testing.assert_allclose(norms, 1.0, rtol=1e-12)
     assert model.effective_graph_weight_ == pytest.approx(120 / affinity.sum())
@@ -146,7 +147,7 @@ def test_float32_fit_is_close_to_float64(cohort):
 
 def test_reconstruction_error_is_relative_frobenius(cohort):
     views, _, affinity = cohort
-    model = JointNMF(3, max_iter=50, random_state=0).fit(views, affinity)
+    model = JointNMF(3, max_iter=50, random_state=0, dtype="float64").fit(views, affinity)
     direct = [np.linalg.norm(X - model.patient_factor_ @ H) / np.linalg.norm(X) for X, H in zip(views, model.components_)]
     np.testing.assert_allclose(model.reconstruction_error_, direct, rtol=1e-8)
 
@@ -266,7 +267,8 @@ def test_labels_with_an_empty_component_do_not_stop_the_fit(monkeypatch):
     start = np.tile([1.0, 0.1, 0.1], (120, 1))
 
     def fit():
-        return JointNMF(3, graph_weight=0.0, tol=1e-8).fit(views, W_init=start)
+        # tol = 1e-8 lies below float32's resolution of the objective, hence float64
+        return JointNMF(3, graph_weight=0.0, tol=1e-8, dtype="float64").fit(views, W_init=start)
 
     with_rule, earliest = fit(), updates.LABEL_PATIENCE + 1
     assert np.bincount(with_rule.patient_factor_.argmax(axis=1), minlength=3).tolist() == [120, 0, 0]

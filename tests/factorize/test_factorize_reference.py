@@ -37,7 +37,7 @@ def test_single_modality_without_graph_follows_sklearn_mu():
     # same up to the per-component scaling, so W H and the objective agree to 1e-9 relative.
     X = _low_rank_matrix()
     W0, H0 = _initialize_nmf(X, 3, init="nndsvda", random_state=0)
-    model = JointNMF(3, max_iter=30, tol=0, modality_weights=[1.0], inner_updates=1)
+    model = JointNMF(3, max_iter=30, tol=0, modality_weights=[1.0], inner_updates=1, dtype="float64")  # scikit-learn's precision
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         model.fit([X], W_init=W0, H_init=[H0])

@@ -178,3 +178,22 @@ def test_graph_partitions_match_scikit_learn_spectral_clustering():
     for count, labels in partitions.items():
         reference = SpectralClustering(count, affinity="precomputed", random_state=0).fit_predict(affinity)
         assert adjusted_rand_score(labels, reference) > 0.99
+
+
+def test_float32_factorisation_leaves_labels_and_criteria_of_float64():
+    # The default dtype is float32 for speed; it must not change what the sweep reports.
+    cohort = prepared_cohort(n_patients=150, n_subtypes=4, seed=6, top_features=60)
+    settings = SweepSettings(n_resamples=6, min_size=5, labels_from="joint_model")
+    sweeps = {
+        dtype: sweep_subtype_counts(cohort.views, cohort.graph, [2, 3, 4, 5], settings=settings,
+                                    factorization={"dtype": dtype}, random_state=4)
+        for dtype in ("float32", "float64")
+    }
+    single, double = sweeps["float32"], sweeps["float64"]
+    assert single.models[4].patient_factor_.dtype == np.float32
+    for k in single.counts:
+        np.testing.assert_array_equal(single.assignments[k]["subtype"], double.assignments[k]["subtype"])
+        np.testing.assert_array_equal(single.resample_labels[k], double.resample_labels[k])
+    criteria = ["pac", "stability", "cophenetic", "silhouette", "modularity"]
+    np.testing.assert_allclose(single.criteria[criteria], double.criteria[criteria], atol=1e-6)
+    assert single.count == double.count

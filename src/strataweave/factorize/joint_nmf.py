@@ -48,7 +48,11 @@ class JointNMF(BaseEstimator):
     use, did not change; the same rule with or without the graph and at every cohort size,
     see `updates.iterate`); `init` ("nndsvda",
     "nndsvd" or "random"; restarts after the first are random); `n_restarts` (the lowest
-    objective wins); `random_state`; `dtype` ("float64" or "float32"); `modality_weights`
+    objective wins); `random_state`; `dtype` of the factors and the products ("float32" or
+    "float64"; the objective is summed in float64 either way): float32 halves the time of an
+    iteration, and on the validity panel (16 cohorts, one run) it left every chosen count and
+    every full-data label at every count unchanged but at one count of one cohort (a near tie
+    at 3 of 10 classes), PAC within 0.003; `modality_weights`
     (alpha_v, default 1 / ||X_v||_F^2); `inner_updates` (most cheap inner updates per outer
     iteration); `transform_max_iter` (updates when projecting new patients).
 
@@ -58,7 +62,7 @@ class JointNMF(BaseEstimator):
 
     def __init__(self, n_components: int = 4, *, graph_weight: float = 1.0, max_iter: int = 300,
                  tol: float = 1e-5, init: str = "nndsvda", n_restarts: int = 1, random_state=None,
-                 dtype: str = "float64", modality_weights=None, inner_updates: int = 10,
+                 dtype: str = "float32", modality_weights=None, inner_updates: int = 10,
                  transform_max_iter: int = 2000):
         self.n_components = n_components
         self.graph_weight = graph_weight
