@@ -64,3 +64,27 @@ def test_bad_counts_are_input_errors():
         eigengaps(affinity, 10)
     with pytest.raises(InputError, match="n_dims"):
         spectral_embedding(affinity, 0)
+
+
+
+def test_large_graphs_switch_to_lobpcg_and_keep_the_partitions_and_eigenmap_of_arpack(monkeypatch):
+    from sklearn.datasets import make_blobs
+    from sklearn.metrics import adjusted_rand_score
+    from sklearn.neighbors import kneighbors_graph
+
+    from strataweave.subtypes.baselines import graph_partitions
+
+    points, _ = make_blobs(900, n_features=10, centers=5, cluster_std=4.0, random_state=3)  # one connected graph
+    knn = kneighbors_graph(points, 15, include_self=False)
+    affinity = sp.csr_matrix(0.5 * (knn + knn.T))
+    counts = [2, 3, 4, 5, 6]
+    assert spectral.eigen_solver(affinity.shape[0]) == "arpack"
+    arpack_partitions, arpack_map = graph_partitions(affinity, counts, 1), spectral_embedding(affinity, n_dims=4)
+    monkeypatch.setattr(spectral, "LOBPCG_ABOVE", 500)
+    assert spectral.eigen_solver(affinity.shape[0]) == "lobpcg"
+    lobpcg_partitions, lobpcg_map = graph_partitions(affinity, counts, 1), spectral_embedding(affinity, n_dims=4)
+    # scikit-learn's ARPACK eigenmap as the reference: the same partitions and the same subspace
+    for count in counts:
+        assert adjusted_rand_score(arpack_partitions[count], lobpcg_partitions[count]) > 0.95, count
+    cosines = np.linalg.svd(np.linalg.qr(arpack_map)[0].T @ np.linalg.qr(lobpcg_map)[0], compute_uv=False)
+    assert cosines.min() > 0.99

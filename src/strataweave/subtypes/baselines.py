@@ -15,6 +15,8 @@ import scipy.sparse as sp
 from sklearn.cluster import KMeans
 from sklearn.manifold import spectral_embedding
 
+from strataweave.graph import eigen_solver
+
 BASELINE_METHODS = {
     "spectral": "spectral clustering on the fused graph",
     "kmeans": "k-means on the concatenated scaled modalities",
@@ -59,7 +61,8 @@ def graph_partitions(affinity: sp.csr_matrix, counts, random_state: int) -> dict
     counts = list(counts)
     with warnings.catch_warnings():
         warnings.filterwarnings("ignore", message=".*not fully connected.*")
-        maps = spectral_embedding(affinity, n_components=max(counts), random_state=random_state, drop_first=False)
+        maps = spectral_embedding(affinity, n_components=max(counts), eigen_solver=eigen_solver(affinity.shape[0]),
+                                  random_state=random_state, drop_first=False)
     return {
         count: codes_by_size(KMeans(count, n_init=KMEANS_STARTS, random_state=random_state).fit_predict(maps[:, :count]))
         for count in counts
