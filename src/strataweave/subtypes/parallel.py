@@ -192,6 +192,8 @@ class TaskRunner:
             joblib.delayed(_single_threaded)(function, shared, params, software_versions()) for _, params in todo
         )
         keep = None if checkpoint is None else (lambda params, result: checkpoint.keep(function, params, result))
+        if not todo:  # joblib warns when a generator it was given ends before any task
+            return _collect(len(task_params), done, iter(()), keep, progress, done_before)
         if self.settings.backend == "dask":
             with joblib.parallel_config(backend="dask", scatter=[shared]):
                 fresh = joblib.Parallel(return_as="generator")(calls)
