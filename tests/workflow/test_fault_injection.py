@@ -13,7 +13,6 @@ from __future__ import annotations
 import errno
 import gzip
 import os
-import re
 import resource
 import shutil
 import signal
@@ -122,9 +121,7 @@ def test_a_sweep_killed_midway_resumes_after_its_finished_resamples_byte_identic
     assert 3 <= kept < 16 and not list(staging.glob("stages/sweep-*.json"))
 
     assert main(["run", str(flow), "--out", str(out)]) == 0
-    # one notice per batch of resamples that had finished ones (the judging resamples, then the rest)
-    resumed = re.findall(r"sweep: (\d+) of (\d+) resamples already finished, resuming after them", capsys.readouterr().err)
-    assert resumed and sum(int(found) for found, _ in resumed) == kept
+    assert f"sweep: {kept} of 16 resamples already finished, resuming after them" in capsys.readouterr().err
     assert same_tables(out, tmp_path / "whole")
     assert not list(out.glob("stages/*.work"))
 

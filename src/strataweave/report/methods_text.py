@@ -8,8 +8,6 @@ from strataweave.report.formatting import format_value
 from strataweave.report.methods_preprocessing import preprocessing_sentences
 from strataweave.report.run_folder import not_run_name
 from strataweave.report.wording import column_words, listing, words
-from strataweave.subtypes.partitions import REPLACING_ERRORS
-from strataweave.subtypes.sweep import JUDGING_RESAMPLES
 
 REFERENCES: dict[str, str] = {
     "lee1999": "Lee DD, Seung HS. Learning the parts of objects by non-negative matrix factorization. "
@@ -29,8 +27,6 @@ REFERENCES: dict[str, str] = {
     "luxburg2007": "von Luxburg U. A tutorial on spectral clustering. Stat Comput 2007;17:395-416.",
     "newman2006": "Newman MEJ. Modularity and community structure in networks. "
                   "Proc Natl Acad Sci USA 2006;103:8577-8582.",
-    "lange2004": "Lange T, Roth V, Braun ML, Buhmann JM. Stability-based validation of clustering solutions. "
-                 "Neural Comput 2004;16:1299-1323.",
     "anders2010": "Anders S, Huber W. Differential expression analysis for sequence count data. "
                   "Genome Biol 2010;11:R106.",
     "hubert1985": "Hubert L, Arabie P. Comparing partitions. J Classif 1985;2:193-218.",
@@ -69,22 +65,17 @@ def _sampled_phrase(results: dict) -> str:
             "clustering and the core patients over all pairs)")
 
 
-def _partition_phrase(selection: dict, count: int, graph_name: str, cite, n_resamples) -> str:
+def _partition_phrase(selection: dict, count: int, graph_name: str, cite) -> str:
     """Which candidate partition gave the subtypes, and the rule that chose it."""
     rows = {row["count"]: row for row in selection.get("partitions", [])}
-    sources = [key for key in PARTITION_WORDS if f"stability_{key}" in rows.get(count, {})]
+    sources = [key for key in PARTITION_WORDS if f"modularity_{key}" in rows.get(count, {})]
     taken = rows.get(count, {}).get("source", "joint_model")
     if len(sources) < 2:
         return f"The subtypes were {''.join(PARTITION_WORDS[taken]).format(graph=graph_name)}."
     words = ", ".join("".join(PARTITION_WORDS[key]).format(graph=graph_name) for key in sources)
-    judged = f"first {min(JUDGING_RESAMPLES, n_resamples)}" if isinstance(n_resamples, int) else "first"
-    return (f"At each count the {judged} resamples were partitioned in each of these ways: "
-            f"{words}. Each candidate's stability was the adjusted Rand index between its resample partitions "
-            f"and its own partition of all patients, on the drawn patients{cite('lange2004')}; the joint "
-            f"factorisation's labels were kept unless another candidate was more stable by more than "
-            f"{REPLACING_ERRORS:g} standard errors of the paired gain, the other resamples repeated the candidate "
-            f"taken, and its resample partitions gave the consensus (modularity on the {graph_name}"
-            f"{cite('newman2006')} is reported beside). At the chosen count this was "
+    return (f"At each count the subtypes were the partition with the highest modularity on "
+            f"the {graph_name}{cite('newman2006')} among {words}, and every resample of that count repeated "
+            f"the kind of partition chosen; at the chosen count this was "
             f"{PARTITION_WORDS[taken][0].format(graph=graph_name)}.")
 
 
@@ -161,8 +152,7 @@ def methods_paragraph(results: dict[str, Any], version: str | None = None) -> tu
             f"the cophenetic correlation{cite('brunet2004')}{_sampled_phrase(results)}, "
             f"the eigengap of the {graph_name}{cite('luxburg2007')} "
             "and further criteria listed in the report.")
-        sentences.append(_partition_phrase(selection, results["subtype_count"], graph_name, cite,
-                                           _get(p, "resampling.n_resamples")))
+        sentences.append(_partition_phrase(selection, results["subtype_count"], graph_name, cite))
         sentences.append(_phrase("A patient was called core when its mean consensus with its own subtype across the "
                                  "resamples was at least {t}.", t=_get(p, "subtypes.core_threshold")))
         chosen = "fixed by the user" if selection.get("overridden") else "recommended"

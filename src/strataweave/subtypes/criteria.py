@@ -35,8 +35,8 @@ def smallest_subtype_size(labels: np.ndarray) -> int:
     return int(sizes.min())
 
 
-def resample_agreements(resample_labels: np.ndarray, full_labels: np.ndarray) -> np.ndarray:
-    """ARI between each resample's labels and the full-data labels on its drawn patients (one per resample)."""
+def resample_stability(resample_labels: np.ndarray, full_labels: np.ndarray) -> float:
+    """Mean ARI between each resample's labels and the full-data labels on the drawn patients."""
     resample_labels = np.asarray(resample_labels)
     full_labels = np.asarray(full_labels)
     if resample_labels.shape[1] != full_labels.size:
@@ -44,11 +44,7 @@ def resample_agreements(resample_labels: np.ndarray, full_labels: np.ndarray) ->
             f"resample labels: found {resample_labels.shape[1]} patients; expected {full_labels.size} "
             "as in the full-data labels"
         )
-    return np.array([
+    scores = [
         adjusted_rand_score(row[row != NOT_DRAWN], full_labels[row != NOT_DRAWN]) for row in resample_labels
-    ])
-
-
-def resample_stability(resample_labels: np.ndarray, full_labels: np.ndarray) -> float:
-    """Mean ARI between each resample's labels and the full-data labels on the drawn patients."""
-    return float(np.mean(resample_agreements(resample_labels, full_labels)))
+    ]
+    return float(np.mean(scores))

@@ -35,8 +35,9 @@ class SweepSettings:
     fused graph at that count, "init" from the factorisation's own `init`. The graph start
     puts the NMF in the basin of the partition the modalities agree on and lets the data
     term refine it; restarts after the first are random either way.
-    labels_from: "best_fit" takes, at each count, the candidate partition that the resamples
-    reproduce best (highest stability, see `partitions`); a candidate's name ("joint_model",
+    labels_from: "best_fit" takes, at each count, the candidate partition of the full-data
+    fit with the highest modularity on the fused graph, and the resamples of that count
+    repeat that candidate (see `partitions`); a candidate's name ("joint_model",
     "fused_graph", "concatenation") takes that one always.
     """
 

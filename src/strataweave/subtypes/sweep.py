@@ -1,10 +1,9 @@
 """Sweep of subtype counts: resampling consensus, criteria, baselines and a recommended count.
 
-For each count, the joint NMF is fitted on all patients beside the other candidate
-partitions; each resample of the patients (graph restricted to the drawn ones) partitions them
-with every candidate's procedure; the candidate that the resamples reproduce best gives the
-count's labels (see `partitions`), and its resample labels the consensus matrix (Monti et al.
-2003) and the criteria. Tasks run on the backend of `parallel`.
+For each count, the joint NMF is fitted on all patients and the best-fitting candidate
+partition taken (final labels); each resample of the patients (graph restricted to the drawn
+ones) repeats the way of partitioning that count's full-data fit took; the resample labels
+give the consensus matrix (Monti et al. 2003) and the criteria. Tasks run on the backend of `parallel`.
 """
 
 from __future__ import annotations
@@ -18,28 +17,18 @@ import scipy.sparse as sp
 from sklearn.metrics import silhouette_score
 
 from strataweave.errors import InputError
-from strataweave.factorize import scores_for_labels
-from strataweave.graph import PatientGraph, eigengaps, modularity, spectral_embedding
+from strataweave.graph import PatientGraph, eigengaps, spectral_embedding
 from strataweave.seeding import child_seeds
 from strataweave.subtypes.baselines import concatenated_scaled
 from strataweave.subtypes.compare import compare_partitions, split_flow
 from strataweave.subtypes.consensus import kept_patients, summarise_consensus
-from strataweave.subtypes.criteria import (
-    cophenetic_correlation, resample_agreements, resample_stability, smallest_subtype_size,
-)
+from strataweave.subtypes.criteria import cophenetic_correlation, resample_stability, smallest_subtype_size
 from strataweave.subtypes.parallel import ParallelSettings, TaskRunner
-from strataweave.subtypes.partitions import choose_partition, graph_degree, joint_coordinates
+from strataweave.subtypes.partitions import graph_degree, joint_coordinates
 from strataweave.subtypes.recommend import recommend_count
 from strataweave.subtypes.result import SweepResult
 from strataweave.subtypes.settings import SweepSettings, check_counts, default_min_size
-from strataweave.subtypes.tasks import SweepInputs, admitted_sources, fit_full_data, fit_resample
-
-
-#: Resamples that partition their patients with every admitted candidate, so that the most stable
-#: can be chosen at each count (`partitions`); the others repeat only the chosen candidate. The
-#: joint NMF in every resample at every count made panel sweeps 2-5x slower (one run), and ten
-#: resamples judge stability to about 0.01 of the mean ARI over all fifty on the panel.
-JUDGING_RESAMPLES = 10
+from strataweave.subtypes.tasks import SweepInputs, fit_full_data, fit_resample
 
 
 def planned_tasks(counts: Iterable[int], settings: SweepSettings = SweepSettings()) -> int:
@@ -144,55 +133,32 @@ def sweep_subtype_counts(
             shared = replace(
                 shared, warm_factors={fit.count: (fit.model.patient_factor_, fit.model.components_) for fit in fits}
             )
+        shared = replace(shared, sources={fit.count: fit.source for fit in fits})
         resample_tasks = list(enumerate(child_seeds(resample_root, settings.n_resamples)))
-        judging = min(JUDGING_RESAMPLES, len(resample_tasks))
-        judged = runner.map(fit_resample, shared, resample_tasks[:judging], progress, done_before=len(counts))
-        agreements = _agreements(fits, judged, admitted_sources(settings))
-        sources = {k: choose_partition(by_source) for k, by_source in agreements.items()}
-        rest = runner.map(fit_resample, replace(shared, sources=sources), resample_tasks[judging:], progress,
-                          done_before=len(counts) + judging)
+        resamples = runner.map(fit_resample, shared, resample_tasks, progress, done_before=len(counts))
 
-    stacked = np.stack([fit.labels for fit in judged + rest], axis=2)  # sources x counts x resamples x patients
-    position = {source: s for s, source in enumerate(admitted_sources(settings))}
-    resample_labels = {k: stacked[position[sources[k]], i] for i, k in enumerate(counts)}
+    stacked = np.stack([fit.labels for fit in resamples], axis=1)  # counts x resamples x patients
+    resample_labels = {k: stacked[i] for i, k in enumerate(counts)}
     kept = kept_patients(n_patients, kept_root)
-    unconverged = sum(r.unconverged for r in judged + rest)
-    stabilities = {k: {source: float(np.mean(a)) for source, a in by_source.items()} for k, by_source in agreements.items()}
-    return _assemble(patients, affinity, counts, settings, fits, resample_labels, (sources, stabilities), kept,
-                     unconverged)
+    unconverged = sum(r.unconverged for r in resamples)
+    return _assemble(patients, affinity, counts, settings, fits, resample_labels, kept, unconverged)
 
 
-def _agreements(fits, judged, sources: tuple[str, ...]) -> dict[int, dict[str, np.ndarray]]:
-    """Per count and candidate, the ARIs of its judging-resample partitions with its full-data one."""
-    stacked = np.stack([fit.labels for fit in judged], axis=2)  # sources x counts x resamples x patients
-    return {
-        fit.count: {source: resample_agreements(stacked[s, i], fit.candidates[source]) for s, source in enumerate(sources)}
-        for i, fit in enumerate(fits)
-    }
-
-
-def _assemble(patients, affinity, counts, settings, fits, resample_labels, choice, kept, resample_unconverged):
-    """Criteria, consensus, assignments, baselines, flow and recommendation (a SweepResult) from the
-    fits, the chosen candidate's resample labels per count and `choice` (the source taken and
-    every candidate's judging stability, per count)."""
+def _assemble(patients, affinity, counts, settings, fits, resample_labels, kept, resample_unconverged) -> SweepResult:
+    """Criteria, consensus, assignments, baselines, flow and recommendation from the fits."""
     embedding = spectral_embedding(affinity, n_dims=min(max(counts), len(patients) - 1))
     gaps = eigengaps(affinity, max(counts))["gap"]
     rows, consensus, assignments, baseline_labels, baseline_rows, partitions = {}, {}, {}, {}, [], {}
-    sources, stabilities = choice
     for fit in fits:
         k = fit.count
-        source = sources[k]
-        chosen = fit.candidates[source]
-        modularities = {name: modularity(affinity, labels) for name, labels in fit.candidates.items()}
-        summary = summarise_consensus(resample_labels[k], chosen, settings.pac_window, kept)
+        summary = summarise_consensus(resample_labels[k], fit.labels, settings.pac_window, kept)
         consensus[k] = summary.matrix
         own, core = summary.own, summary.core(settings.core_threshold)
-        confidence, fit_scores = scores_for_labels(fit.model.patient_factor_, chosen, k)
-        scores = pd.DataFrame(fit_scores, index=patients, columns=[f"score_{j}" for j in range(k)])
+        scores = pd.DataFrame(fit.scores, index=patients, columns=[f"score_{j}" for j in range(k)])
         assignments[k] = pd.concat(
             [
                 pd.DataFrame(
-                    {"subtype": chosen, "confidence": confidence, "own_consensus": own, "core": core},
+                    {"subtype": fit.labels, "confidence": fit.confidence, "own_consensus": own, "core": core},
                     index=patients,
                 ),
                 scores,
@@ -202,21 +168,17 @@ def _assemble(patients, affinity, counts, settings, fits, resample_labels, choic
         rows[k] = {
             "pac": summary.pac,
             "cophenetic": cophenetic_correlation(consensus[k]),
-            "silhouette": _silhouette(embedding, chosen),
+            "silhouette": _silhouette(embedding, fit.labels),
             "eigengap": float(gaps.loc[k]),
             "reconstruction_error": float(np.mean(fit.model.reconstruction_error_)),
-            "smallest_subtype": smallest_subtype_size(chosen),
-            "stability": resample_stability(resample_labels[k], chosen),
-            "modularity": modularities[source],
+            "smallest_subtype": smallest_subtype_size(fit.labels),
+            "stability": resample_stability(resample_labels[k], fit.labels),
+            "modularity": fit.modularity[fit.source],
         }
-        partitions[k] = {
-            "source": source,
-            **{f"stability_{name}": value for name, value in stabilities[k].items()},
-            **{f"modularity_{name}": value for name, value in modularities.items()},
-        }
+        partitions[k] = {"source": fit.source, **{f"modularity_{name}": q for name, q in fit.modularity.items()}}
         baseline_labels[k] = pd.DataFrame(fit.baseline_labels, index=patients)
         for method, labels in fit.baseline_labels.items():
-            agreement = compare_partitions(chosen, labels)
+            agreement = compare_partitions(fit.labels, labels)
             baseline_rows.append(
                 {
                     "count": k,

@@ -15,11 +15,11 @@ import numpy as np
 import scipy.sparse as sp
 from sklearn.exceptions import ConvergenceWarning
 
-from strataweave.factorize import JointNMF, label_patients, partition_factor
+from strataweave.factorize import JointNMF, label_patients, partition_factor, scores_for_labels
 from strataweave.seeding import child_seeds
 from strataweave.subtypes.baselines import graph_partitions, kmeans_labels
 from strataweave.subtypes.consensus import NOT_DRAWN
-from strataweave.subtypes.partitions import PARTITION_SOURCES, concatenation_partitions
+from strataweave.subtypes.partitions import choose_partition, concatenation_partitions
 from strataweave.subtypes.settings import SweepSettings
 
 
@@ -29,8 +29,8 @@ class SweepInputs:
     missing modality), the fused affinity, the counts, JointNMF keyword arguments, the
     sweep settings, the scaled concatenation for the k-means baseline, its principal
     coordinates and the neighbour count for the concatenation partition, for warm starts the
-    full-data factors per count, and once chosen the candidate each count takes (None: every
-    admitted candidate is partitioned, see `partitions`)."""
+    full-data factors per count, and for the resamples the candidate each count's full-data
+    fit took (see `partitions`)."""
 
     views: dict[str, np.ndarray]
     affinity: sp.csr_matrix
@@ -46,28 +46,26 @@ class SweepInputs:
 
 @dataclass
 class FullFit:
-    """The full-data fit at one count: the model, every admitted candidate partition (source ->
-    labels, see `partitions`) and the baseline labels."""
+    """The full-data fit at one count: model, labels (and which candidate partition they are,
+    with every candidate's modularity), confidence, scores, baseline labels."""
 
     count: int
     model: JointNMF
-    candidates: dict[str, np.ndarray]
+    labels: np.ndarray
+    source: str
+    modularity: dict[str, float]
+    confidence: np.ndarray
+    scores: np.ndarray
     baseline_labels: dict[str, np.ndarray]
     unconverged: int
 
 
 @dataclass
 class ResampleFit:
-    """One resample: labels per admitted candidate and count (sources x counts x patients, in
-    the order of `admitted_sources`; NOT_DRAWN where not drawn or not partitioned)."""
+    """One resample: labels per count (counts x patients, NOT_DRAWN where not drawn)."""
 
     labels: np.ndarray
     unconverged: int
-
-
-def admitted_sources(settings: SweepSettings) -> tuple[str, ...]:
-    """The candidate partitions `settings.labels_from` admits, in order of preference on a tie."""
-    return PARTITION_SOURCES if settings.labels_from == "best_fit" else (settings.labels_from,)
 
 
 def _fit_and_label(views, affinity, count, factorization, seed, warm=None):
@@ -83,6 +81,16 @@ def _fit_and_label(views, affinity, count, factorization, seed, warm=None):
     return model, labels, unconverged
 
 
+def _candidates(settings: SweepSettings, model_labels, graph_partition, concatenation) -> dict[str, np.ndarray]:
+    """The candidate partitions `settings.labels_from` admits (`concatenation` is called only if needed)."""
+    candidates = {"joint_model": model_labels, "fused_graph": graph_partition}
+    if settings.labels_from in ("best_fit", "concatenation"):
+        candidates["concatenation"] = concatenation()
+    if settings.labels_from == "best_fit":
+        return candidates
+    return {settings.labels_from: candidates[settings.labels_from]}
+
+
 def _start(settings: SweepSettings, partition: np.ndarray, count: int, warm=None):
     """(W_init, H_init) of one fit: warm factors, the graph's partition, or neither (the model's own init)."""
     if warm is not None:
@@ -93,19 +101,21 @@ def _start(settings: SweepSettings, partition: np.ndarray, count: int, warm=None
 
 
 def fit_full_data(shared: SweepInputs, task: tuple[int, int]) -> FullFit:
-    """Joint NMF on all patients at one count, every admitted candidate partition, and the two baselines."""
+    """Joint NMF on all patients at one count, the chosen partition, and the two baselines at that count."""
     count, seed = task
     fit_seed, spectral_seed, kmeans_seed, joint_seed = child_seeds(seed, 4)
     spectral = graph_partitions(shared.affinity, [count], spectral_seed)[count]
     model, model_labels, unconverged = _fit_and_label(
         shared.views, shared.affinity, count, shared.factorization, fit_seed, _start(shared.settings, spectral, count)
     )
-    found = {"joint_model": model_labels, "fused_graph": spectral}
-    sources = admitted_sources(shared.settings)
-    if "concatenation" in sources:
-        found["concatenation"] = concatenation_partitions(shared.joint, [count], shared.joint_neighbours, joint_seed)[count]
+    candidates = _candidates(
+        shared.settings, model_labels, spectral,
+        lambda: concatenation_partitions(shared.joint, [count], shared.joint_neighbours, joint_seed)[count],
+    )
+    source, labels, modularity = choose_partition(shared.affinity, candidates)
+    confidence, scores = scores_for_labels(model.patient_factor_, labels, count)
     baselines = {"spectral": spectral, "kmeans": kmeans_labels(shared.concatenated, count, kmeans_seed)}
-    return FullFit(count, model, {source: found[source] for source in sources}, baselines, unconverged)
+    return FullFit(count, model, labels, source, modularity, confidence, scores, baselines, unconverged)
 
 
 def _draw(rng: np.random.Generator, size: int, fraction: float, at_least: int) -> np.ndarray:
@@ -116,8 +126,8 @@ def _draw(rng: np.random.Generator, size: int, fraction: float, at_least: int) -
 
 def fit_resample(shared: SweepInputs, task: tuple[int, int]) -> ResampleFit:
     """Draw patients (and features), restrict the graph to them and partition them at every
-    count with every admitted candidate's procedure, or once `shared.sources` is set, with the
-    chosen candidate's only (the joint NMF only at counts where it is needed).
+    count the way the full-data fit of that count did (`shared.sources`); the joint NMF is
+    fitted only at counts whose full-data partition came from it.
 
     Seed layout: child 0 draws the resample, child k seeds count k, so the draw does not
     depend on the counts and a count's fit does not depend on the other counts; the graph
@@ -126,7 +136,6 @@ def fit_resample(shared: SweepInputs, task: tuple[int, int]) -> ResampleFit:
     """
     _, seed = task
     settings, counts = shared.settings, shared.counts
-    sources = admitted_sources(settings)
     seeds = child_seeds(seed, max(counts) + 3)
     rng = np.random.default_rng(seeds[0])
     n_patients = shared.affinity.shape[0]
@@ -138,28 +147,32 @@ def fit_resample(shared: SweepInputs, task: tuple[int, int]) -> ResampleFit:
     views = {name: values[rows][:, columns[name]] for name, values in shared.views.items()}
     affinity = shared.affinity[rows][:, rows]
     factorization = {**shared.factorization, "n_restarts": settings.resample_restarts}
-    labels = np.full((len(sources), len(counts), n_patients), NOT_DRAWN, dtype=np.int16)
-    wanted = {count: sources if shared.sources is None else (shared.sources[count],) for count in counts}
-    found = {"fused_graph": graph_partitions(affinity, counts, seeds[max(counts) + 1])}
-    if any("concatenation" in chosen for chosen in wanted.values()):
-        found["concatenation"] = concatenation_partitions(
-            shared.joint[rows], counts, shared.joint_neighbours, seeds[max(counts) + 2]
-        )
-    unconverged = 0
-    found["joint_model"] = {}
-    for count in counts:
-        if "joint_model" in wanted[count]:
-            warm = None
-            if shared.warm_factors is not None:
-                W, loadings = shared.warm_factors[count]
-                warm = (W[rows], [H[:, columns[name]] for name, H in zip(views, loadings)])
-            start = _start(settings, found["fused_graph"][count], count, warm)
-            _, found["joint_model"][count], stopped = _fit_and_label(
-                views, affinity, count, factorization, seeds[count], start
+    labels = np.full((len(counts), n_patients), NOT_DRAWN, dtype=np.int16)
+    partitions = graph_partitions(affinity, counts, seeds[max(counts) + 1])
+    concatenation = {}
+
+    def concatenation_at(count):
+        if not concatenation:
+            concatenation.update(
+                concatenation_partitions(shared.joint[rows], counts, shared.joint_neighbours, seeds[max(counts) + 2])
             )
-            unconverged += stopped
-    for s, source in enumerate(sources):
-        for position, count in enumerate(counts):
-            if source in wanted[count]:
-                labels[s, position, rows] = found[source][count]
+        return concatenation[count]
+
+    unconverged = 0
+    for position, count in enumerate(counts):
+        source = shared.sources[count]
+        if source == "fused_graph":
+            labels[position, rows] = partitions[count]
+            continue
+        if source == "concatenation":
+            labels[position, rows] = concatenation_at(count)
+            continue
+        warm = None
+        if shared.warm_factors is not None:
+            W, loadings = shared.warm_factors[count]
+            warm = (W[rows], [H[:, columns[name]] for name, H in zip(views, loadings)])
+        start = _start(settings, partitions[count], count, warm)
+        _, model_labels, stopped = _fit_and_label(views, affinity, count, factorization, seeds[count], start)
+        labels[position, rows] = model_labels
+        unconverged += stopped
     return ResampleFit(labels, unconverged)
