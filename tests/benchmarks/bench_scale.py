@@ -111,7 +111,8 @@ def stage_sweep(n_patients: int, args) -> dict:
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
         ours = _timed(lambda: sweep_subtype_counts(
-            views, graph, counts, settings=settings, parallel=ParallelSettings(n_jobs=args.jobs), random_state=3
+            views, graph, counts, settings=settings, parallel=ParallelSettings(backend="processes", n_jobs=args.jobs),
+            random_state=3,
         ))
         X = np.hstack([frame.to_numpy() for frame in views.values()])
         by_hand = sum(_timed(lambda k=k: NMF(k, solver="mu", random_state=0).fit(X)) for k in counts)
