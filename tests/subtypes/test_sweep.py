@@ -197,3 +197,18 @@ def test_float32_factorisation_leaves_labels_and_criteria_of_float64():
     criteria = ["pac", "stability", "cophenetic", "silhouette", "modularity"]
     np.testing.assert_allclose(single.criteria[criteria], double.criteria[criteria], atol=1e-6)
     assert single.count == double.count
+
+
+def test_silhouettes_of_a_large_cohort_come_from_a_sample_close_to_the_exact_value(monkeypatch):
+    from sklearn.datasets import make_blobs
+
+    from strataweave.subtypes import sweep
+
+    points, labels = make_blobs(3000, n_features=4, centers=4, cluster_std=3.0, random_state=5)
+    exact = sweep._silhouette(points, labels)
+    # scikit-learn's silhouette_score over all patients as the reference
+    assert exact == pytest.approx(silhouette_score(points, labels))
+    monkeypatch.setattr(sweep, "SILHOUETTE_SIDE", 500)
+    sampled = sweep._silhouette(points, labels)
+    assert sampled != exact and sampled == pytest.approx(exact, abs=0.03)
+    assert sweep._silhouette(points, labels) == sampled  # seeded: the same sample every time
