@@ -59,12 +59,26 @@ def test_modularity_matches_the_pair_sum_definition_on_a_weighted_graph():
 def test_the_candidate_with_the_highest_modularity_wins_and_a_tie_keeps_the_first():
     affinity, truth = _cliques([5, 5, 5])
     shuffled = np.random.default_rng(1).permutation(truth)
-    source, labels, scores = choose_partition(affinity, {"joint_model": shuffled, "fused_graph": truth})
+    source, labels, scores = choose_partition([affinity], {"joint_model": shuffled, "fused_graph": truth})
     assert source == "fused_graph" and np.array_equal(labels, truth)
     assert scores["fused_graph"] > scores["joint_model"]
     renamed = (truth + 1) % 3  # the same partition under other codes: a tie
-    source, _, _ = choose_partition(affinity, {"joint_model": renamed, "fused_graph": truth})
+    source, _, _ = choose_partition([affinity], {"joint_model": renamed, "fused_graph": truth})
     assert source == "joint_model"
+
+
+def test_candidates_are_judged_by_their_mean_modularity_over_the_modalities_graphs():
+    # Two modalities whose graphs both hold the planted cliques; a third graph (say a fused one)
+    # that holds another cut scores the other cut higher, the modalities' mean scores the planted one.
+    planted_graph, planted = _cliques([6, 6, 6])
+    other = np.random.default_rng(2).permutation(planted)
+    other_graph = sp.csr_matrix((other[:, None] == other[None, :]) & ~np.eye(other.size, dtype=bool), dtype=float)
+    candidates = {"joint_model": planted, "fused_graph": other}
+    assert choose_partition([other_graph], candidates)[0] == "fused_graph"
+    source, _, scores = choose_partition([planted_graph, planted_graph, other_graph], candidates)
+    assert source == "joint_model"
+    expected = np.mean([modularity(g, planted) for g in (planted_graph, planted_graph, other_graph)])
+    assert scores["joint_model"] == pytest.approx(expected)
 
 
 def test_concatenation_partition_agrees_with_scikit_learn_spectral_clustering():
@@ -118,7 +132,8 @@ def test_the_sweep_records_each_counts_source_and_takes_the_best_fitting_candida
         assert row[f"modularity_{row['source']}"] == qualities.max()
         assert result.criteria.loc[count, "modularity"] == pytest.approx(qualities.max())
         labels = result.assignments[count]["subtype"].to_numpy()
-        assert modularity(cohort.graph.affinity, labels) == pytest.approx(qualities.max())
+        own = [modularity(graph, labels) for graph in cohort.graph.modality_graphs.values()]
+        assert np.mean(own) == pytest.approx(qualities.max())
 
 
 def test_one_named_candidate_is_taken_at_every_count(cohort):
@@ -159,7 +174,7 @@ def _resample_inputs(cohort, sources):
     concatenated = concatenated_scaled(list(views.values()))
     affinity = sp.csr_matrix(cohort.graph.affinity)
     return SweepInputs(views, affinity, [2, 3], {"max_iter": 40}, SweepSettings(n_resamples=2, min_size=5),
-                       concatenated, joint_coordinates(concatenated, 0), graph_degree(affinity), sources=sources)
+                       concatenated, joint_coordinates(concatenated, 0), graph_degree(affinity), [affinity], sources=sources)
 
 
 def test_a_resample_repeats_each_counts_full_data_choice(cohort, monkeypatch):

@@ -72,7 +72,7 @@ def test_a_count_that_fits_the_graph_better_is_named_as_runner_up():
     )
     choice = recommend_count(table, min_size=10)
     assert choice.count == 3
-    assert choice.reason.endswith("Runner-up: 4 subtypes, whose partition fits the fused graph better "
-                                  "(modularity 0.520 against 0.510, PAC 0.040).")
+    assert choice.reason.endswith("Runner-up: 4 subtypes, whose partition fits the modalities' own graphs "
+                                  "better (mean modularity 0.520 against 0.510, PAC 0.040).")
     best_fit_chosen = table.assign(modularity=[0.40, 0.53, 0.52, 0.45])
     assert "Runner-up" not in recommend_count(best_fit_chosen, min_size=10).reason

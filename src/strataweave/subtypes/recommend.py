@@ -33,7 +33,7 @@ RULE = (
     f"eigengap is at least {CLEAR_CUT_SHARE:g} of the largest eigengap among those counts, and that "
     f"largest eigengap is at least {CLEAR_GAP:g} (a graph without any clear cut confirms nothing). The "
     "largest crisp count is chosen. A count chosen by the user replaces the rule's choice but must "
-    "also be eligible. Where another eligible count has partitions that fit the fused graph better "
+    "also be eligible. Where another eligible count has partitions that fit the modalities' own graphs better "
     "(higher modularity), the reason names it as the runner-up, so that both can be examined."
 )
 
@@ -114,7 +114,7 @@ def _runner_up(eligible: pd.DataFrame, count: int) -> str:
     best = int(eligible["modularity"].idxmax())
     if best == count:
         return ""
-    return (f" Runner-up: {best} subtypes, whose partition fits the fused graph better (modularity "
+    return (f" Runner-up: {best} subtypes, whose partition fits the modalities' own graphs better (mean modularity "
             f"{eligible.loc[best, 'modularity']:.3f} against {eligible.loc[count, 'modularity']:.3f}, "
             f"PAC {eligible.loc[best, 'pac']:.3f}).")
 

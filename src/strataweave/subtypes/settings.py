@@ -36,7 +36,7 @@ class SweepSettings:
     puts the NMF in the basin of the partition the modalities agree on and lets the data
     term refine it; restarts after the first are random either way.
     labels_from: "best_fit" takes, at each count, the candidate partition of the full-data
-    fit with the highest modularity on the fused graph, and the resamples of that count
+    fit with the highest mean modularity on the modalities' own graphs, and the resamples of that count
     repeat that candidate (see `partitions`); a candidate's name ("joint_model",
     "fused_graph", "concatenation") takes that one always.
     """

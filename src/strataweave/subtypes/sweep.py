@@ -88,6 +88,20 @@ def _affinity(graph: PatientGraph | sp.spmatrix, patients: pd.Index | None, n_pa
     return sp.csr_matrix(graph, dtype=np.float64)
 
 
+def _judging_graphs(graph, modality_graphs, affinity: sp.csr_matrix) -> list[sp.csr_matrix]:
+    """Each modality's own graph (given, or the PatientGraph's), else the fused affinity alone."""
+    if modality_graphs is None and isinstance(graph, PatientGraph):
+        modality_graphs = graph.modality_graphs
+    if not modality_graphs:
+        return [affinity]
+    n = affinity.shape[0]
+    for name, own in modality_graphs.items():
+        if not sp.issparse(own) or own.shape != (n, n):
+            raise InputError(f"modality graph {name!r}: found shape {getattr(own, 'shape', None)}; "
+                             f"expected a sparse ({n}, {n}) graph on the views' patients")
+    return [sp.csr_matrix(own, dtype=np.float64) for own in modality_graphs.values()]
+
+
 def sweep_subtype_counts(
     views: Mapping | Sequence,
     graph: PatientGraph | sp.spmatrix,
@@ -99,6 +113,7 @@ def sweep_subtype_counts(
     parallel: ParallelSettings = ParallelSettings(),
     random_state: int | None = None,
     progress: Callable[[int], None] | None = None,
+    modality_graphs: Mapping[str, sp.spmatrix] | None = None,
 ) -> SweepResult:
     """Fit every count on all patients and on `settings.n_resamples` resamples; judge and recommend.
 
@@ -111,7 +126,9 @@ def sweep_subtype_counts(
     validity panel, mean ARI at the planted count 0.674 from the split views, 0.698 from the
     profiles). factorization: JointNMF keyword arguments (graph_weight,
     max_iter, tol, init, n_restarts, dtype, ...). progress: called with the number of finished
-    tasks (total: :func:`planned_tasks`).
+    tasks (total: :func:`planned_tasks`). modality_graphs: each modality's own patient graph
+    on the same patients, which judge the candidate partitions (`partitions`); default: those of
+    a PatientGraph `graph`, else the fused affinity alone.
     """
     arrays, patients = _named_arrays(views)
     n_patients = next(iter(arrays.values())).shape[0]
@@ -130,6 +147,7 @@ def sweep_subtype_counts(
     shared = SweepInputs(
         arrays, affinity, counts, factorization, settings, concatenated,
         joint_coordinates(concatenated, joint_root), graph_degree(affinity),
+        _judging_graphs(graph, modality_graphs, affinity),
     )
     count_seeds = child_seeds(full_root, max(counts) + 1)
     with TaskRunner(parallel) as runner:

@@ -28,7 +28,8 @@ class SweepInputs:
     """What every task reads: modalities (name -> patients x features, all-NaN rows for a
     missing modality), the fused affinity, the counts, JointNMF keyword arguments, the
     sweep settings, the scaled concatenation for the k-means baseline, its principal
-    coordinates and the neighbour count for the concatenation partition, for warm starts the
+    coordinates and the neighbour count for the concatenation partition, the graphs that judge
+    the candidate partitions (each modality's own, see `partitions`), for warm starts the
     full-data factors per count, and for the resamples the candidate each count's full-data
     fit took (see `partitions`)."""
 
@@ -40,6 +41,7 @@ class SweepInputs:
     concatenated: np.ndarray
     joint: np.ndarray
     joint_neighbours: int
+    judging_graphs: list[sp.csr_matrix]
     warm_factors: dict[int, tuple[np.ndarray, list[np.ndarray]]] | None = None
     sources: dict[int, str] | None = None
 
@@ -112,7 +114,7 @@ def fit_full_data(shared: SweepInputs, task: tuple[int, int]) -> FullFit:
         shared.settings, model_labels, spectral,
         lambda: concatenation_partitions(shared.joint, [count], shared.joint_neighbours, joint_seed)[count],
     )
-    source, labels, modularity = choose_partition(shared.affinity, candidates)
+    source, labels, modularity = choose_partition(shared.judging_graphs, candidates)
     confidence, scores = scores_for_labels(model.patient_factor_, labels, count)
     baselines = {"spectral": spectral, "kmeans": kmeans_labels(shared.concatenated, count, kmeans_seed)}
     return FullFit(count, model, labels, source, modularity, confidence, scores, baselines, unconverged)

@@ -35,7 +35,7 @@ from strataweave.subtypes.tasks import ResampleFit, fit_resample
 # Keys and stored entries
 # ---------------------------------------------------------------------------------------------
 
-CACHE_FORMAT = 2
+CACHE_FORMAT = 3
 
 
 def _plain(obj: object) -> object:

@@ -348,7 +348,7 @@ class SubtypeSettings:
     core_threshold: float = key(number(0, 1), SweepSettings.core_threshold, doc="mean consensus with the own subtype")
     labels_from: str = key(
         choice(*LABELS_FROM), SweepSettings.labels_from,
-        doc="best_fit: the candidate partition with the highest modularity on the fused graph; or one candidate",
+        doc="best_fit: the candidate partition with the highest mean modularity on the modalities' graphs; or one candidate",
     )
 
 

@@ -212,6 +212,7 @@ class FusedGraph(CodecState):
     affinity: sp.csr_matrix
     embedding: np.ndarray
     summary: dict
+    modality_graphs: dict[str, sp.csr_matrix]
 
 
 def build_graph(flow: Workflow, prepared: PreparedCohort, seed: int, feedback: Feedback) -> FusedGraph:
@@ -256,6 +257,7 @@ def build_graph(flow: Workflow, prepared: PreparedCohort, seed: int, feedback: F
                 for b in names[i + 1:]
             ],
         },
+        modality_graphs={name: sp.csr_matrix(own) for name, own in graph.modality_graphs.items()},
     )
 
 
@@ -329,6 +331,7 @@ def run_sweep(
             parallel=parallel,
             random_state=seed,
             progress=progress,
+            modality_graphs=graphs.modality_graphs,
         )
 
 
