@@ -5,8 +5,10 @@ Builds, once, a run folder per size under DIR (default: a temporary folder) from
 workflow on the synthetic cohort of that size, with 6 resamples per count so the build is quick
 (the report draws the same figures whatever the resample count); an existing finished folder is
 reused. Then renders each folder `--repeats` times, sizes interleaved so load on a shared machine
-falls on every size alike, and prints the median wall time, its ratio to the 5 s target, and the
-cProfile cumulative seconds of the report's parts from one more, profiled rendering.
+falls on every size alike, and prints the median wall time (figures and slides on one forked
+worker per core, as the report draws them), its ratio to the 5 s target, the wall time of one
+rendering in this process alone, and the cProfile cumulative seconds of the report's parts from
+that serial rendering (a profile sees only its own process).
 """
 
 from __future__ import annotations
@@ -61,17 +63,26 @@ def render_copy(run: Path, work: Path) -> float:
     return time.perf_counter() - start
 
 
-def profiled_parts(run: Path, work: Path) -> dict[str, float]:
-    """Cumulative seconds of each part of PARTS in one profiled rendering."""
-    profile = cProfile.Profile()
-    profile.runcall(render_copy, run, work)
+def serial_render(run: Path, work: Path) -> tuple[float, dict[str, float]]:
+    """Wall seconds of one rendering in this process alone, and the cumulative seconds of each
+    part of PARTS in one more, profiled, such rendering."""
+    from strataweave.report import drawing_pool
+
+    cores = drawing_pool.available_cores
+    drawing_pool.available_cores = lambda: 1
+    try:
+        wall = render_copy(run, work)
+        profile = cProfile.Profile()
+        profile.runcall(render_copy, run, work)
+    finally:
+        drawing_pool.available_cores = cores
     stats = pstats.Stats(profile).stats
     totals = {label: 0.0 for label, _ in PARTS}
     for (_, _, function), (_, _, _, cumulative, _) in stats.items():
         for label, name in PARTS:
             if function == name:
                 totals[label] = max(totals[label], cumulative)
-    return totals
+    return wall, totals
 
 
 def main(argv: list[str]) -> int:
@@ -90,11 +101,11 @@ def main(argv: list[str]) -> int:
         for n in args.sizes:
             walls[n].append(render_copy(runs[n], root / f"render_{n}"))
     print(f"report stage, median of {args.repeats} (target {TARGET_SECONDS:.0f} s at 2,000 patients)")
-    print("patients   wall s  x target  " + "  ".join(f"{label} (cProfile s)" for label, _ in PARTS))
+    print("patients   wall s  x target  serial s  " + "  ".join(f"{label} (cProfile s)" for label, _ in PARTS))
     for n in args.sizes:
         wall = statistics.median(walls[n])
-        parts = profiled_parts(runs[n], root / f"render_{n}")
-        print(f"{n:8d}  {wall:7.2f}  {wall / TARGET_SECONDS:8.2f}  "
+        serial, parts = serial_render(runs[n], root / f"render_{n}")
+        print(f"{n:8d}  {wall:7.2f}  {wall / TARGET_SECONDS:8.2f}  {serial:8.2f}  "
               + "  ".join(f"{parts[label]:{len(label) + 13}.2f}" for label, _ in PARTS))
     return 0
 

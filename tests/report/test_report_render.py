@@ -8,6 +8,7 @@ import re
 import shlex
 import shutil
 import subprocess
+import zlib
 from pathlib import Path
 
 import matplotlib.image as mpimg
@@ -17,7 +18,7 @@ from report_fixture import HOSTILE_STRINGS, make_results, write_run_folder
 
 from strataweave import InputError
 from strataweave.caution import CAUTION
-from strataweave.report import render_run
+from strataweave.report import drawing_pool, render_run
 from strataweave.report.figure_style import figure_bytes, new_figure, report_style
 from strataweave.report.figures_outcome import draw_forest, draw_kaplan_meier
 from strataweave.report.html_report import render_html
@@ -229,3 +230,32 @@ def test_rendering_again_removes_figures_it_no_longer_draws(tmp_path):
     render_run(root, formats=("html",))
     assert not list((root / "figures").glob("selection_criteria.*"))
     assert (root / "figures" / "selection_evidence.png").is_file() and (root / "figures" / "notes.txt").is_file()
+
+
+def _pdf_streams(path: Path) -> list[bytes]:
+    """The PDF's streams, inflated where compressed, with a negative zero written as zero: the
+    sign of a zero coordinate can differ between processes whose BLAS kernels differ."""
+    streams = []
+    for raw in re.findall(rb"stream\n(.*?)\nendstream", path.read_bytes(), re.S):
+        try:
+            raw = zlib.decompress(raw)
+        except zlib.error:
+            pass
+        streams.append(re.sub(rb"(?<![\d.])-0(?![\d.])", b"0", raw))
+    return streams
+
+
+def test_workers_and_one_process_draw_the_same_files(tmp_path, monkeypatch):
+    results, arrays = make_results(n=40)
+    pooled = write_run_folder(tmp_path / "pooled", results, arrays)
+    here = write_run_folder(tmp_path / "here", results, arrays)
+    monkeypatch.setattr(drawing_pool, "available_cores", lambda: 2)
+    render_run(pooled)
+    monkeypatch.setattr(drawing_pool, "available_cores", lambda: 1)
+    render_run(here)
+    names = sorted(p.name for p in (here / "figures").iterdir())
+    assert names == sorted(p.name for p in (pooled / "figures").iterdir()) and len(names) > 10
+    for name in names:
+        assert (pooled / "figures" / name).read_bytes() == (here / "figures" / name).read_bytes(), name
+    assert _pdf_streams(pooled / "slides.pdf") == _pdf_streams(here / "slides.pdf")
+    assert (pooled / "report.html").read_text(encoding="utf-8") == (here / "report.html").read_text(encoding="utf-8")

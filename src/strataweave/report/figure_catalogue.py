@@ -2,13 +2,16 @@
 
 from __future__ import annotations
 
+from concurrent.futures import Executor
 from dataclasses import dataclass
 from functools import partial
+from itertools import repeat
 from pathlib import Path
 from typing import Callable
 
 from strataweave.report import figures_biology, figures_cohort, figures_evidence, figures_outcome
 from strataweave.report import figures_modalities, figures_selection, figures_subtypes, figures_volcano
+from strataweave.report.drawing_pool import on_run
 from strataweave.report.figure_style import FIGURE_SIZE, grid_rows, new_figure, report_style, save_figure
 from strataweave.report.run_folder import RunView
 
@@ -140,21 +143,38 @@ def plan_figures(run: RunView) -> list[FigurePlan]:
     return plans
 
 
-def draw_figures(run: RunView, progress: Callable[[int], None] | None = None) -> list[DrawnFigure]:
-    """Draw every planned figure into run_dir/figures as PNG and SVG; return them with their PNG bytes.
+def draw_figure(run: RunView, plan: FigurePlan) -> bytes:
+    """Draw one planned figure into run_dir/figures as PNG and SVG; return the PNG bytes."""
+    with report_style():
+        fig = new_figure(plan.size)
+        plan.draw(run, fig)
+        return save_figure(fig, Path(run.run_dir) / FIGURES_DIR, plan.name)
+
+
+def draw_planned(run: RunView, index: int) -> bytes:
+    """`draw_figure` of the run's index-th planned figure (what a worker is sent: a number, not a plan)."""
+    return draw_figure(run, plan_figures(run)[index])
+
+
+def draw_figures(run: RunView, progress: Callable[[int], None] | None = None,
+                 pool: Executor | None = None) -> list[DrawnFigure]:
+    """Draw every planned figure into run_dir/figures as PNG and SVG (on `pool`'s workers when
+    given); return them, in plan order, with their PNG bytes.
 
     Figures of an earlier rendering that this one does not draw (a figure since renamed or left out)
     are removed, so the folder always matches the report.
     """
     folder = Path(run.run_dir) / FIGURES_DIR
+    plans = plan_figures(run)
+    if pool is None:
+        pngs = (draw_figure(run, plan) for plan in plans)
+    else:
+        pngs = pool.map(on_run, repeat(draw_planned), range(len(plans)))
     drawn = []
-    with report_style():
-        for done, plan in enumerate(plan_figures(run), start=1):
-            fig = new_figure(plan.size)
-            plan.draw(run, fig)
-            drawn.append(DrawnFigure(plan, save_figure(fig, folder, plan.name)))
-            if progress is not None:
-                progress(done)
+    for done, (plan, png) in enumerate(zip(plans, pngs), start=1):
+        drawn.append(DrawnFigure(plan, png))
+        if progress is not None:
+            progress(done)
     names = {figure.plan.name for figure in drawn}
     for stale in [*folder.glob("*.png"), *folder.glob("*.svg")]:
         if stale.stem not in names:

@@ -10,7 +10,8 @@ from strataweave.files import atomic_write_bytes, atomic_write_text
 from strataweave.report.comparison_page import render_comparison_html
 from strataweave.report.comparison_view import ComparisonView
 from strataweave.report.contract import COMPARISON_FIGURE, COMPARISON_PAGE
-from strataweave.report.figure_catalogue import draw_figures
+from strataweave.report.drawing_pool import drawing_pool, on_run
+from strataweave.report.figure_catalogue import draw_figures, plan_figures
 from strataweave.report.figure_style import new_figure, report_style, save_figure
 from strataweave.report.figures_comparison import FIGURE_SIZE as COMPARISON_SIZE
 from strataweave.report.figures_comparison import draw_comparison
@@ -28,6 +29,7 @@ def render_run(run_dir: str | Path, formats: Iterable[str] = FORMATS,
     """Draw the figures and write the requested formats; return {"figures"|"html"|"pdf": path}.
 
     Reads only results.json, stages/figure_data.npz and manifest.json; computes no statistics.
+    The slides and the figures are drawn side by side on forked workers (see `drawing_pool`).
     `progress`, when given, is called with the number of finished pieces (figures, then each format).
     """
     formats = tuple(formats)
@@ -35,20 +37,22 @@ def render_run(run_dir: str | Path, formats: Iterable[str] = FORMATS,
     if unknown:
         raise InputError(f"report formats: found {unknown[0]!r}; expected some of {', '.join(FORMATS)}")
     run = load_run(run_dir)
-    figures = draw_figures(run, progress=progress)
-    written = {"figures": run.run_dir / "figures"}
-    done = len(figures)
-    if "html" in formats:
-        written["html"] = run.run_dir / REPORT_FILE
-        atomic_write_text(written["html"], render_html(run, figures))
-        done += 1
-        if progress is not None:
-            progress(done)
-    if "pdf" in formats:
-        written["pdf"] = run.run_dir / SLIDES_FILE
-        atomic_write_bytes(written["pdf"], render_slides(run))
-        if progress is not None:
-            progress(done + 1)
+    with drawing_pool(run, len(plan_figures(run)) + ("pdf" in formats)) as pool:
+        slides = pool.submit(on_run, render_slides) if pool is not None and "pdf" in formats else None
+        figures = draw_figures(run, progress=progress, pool=pool)
+        written = {"figures": run.run_dir / "figures"}
+        done = len(figures)
+        if "html" in formats:
+            written["html"] = run.run_dir / REPORT_FILE
+            atomic_write_text(written["html"], render_html(run, figures))
+            done += 1
+            if progress is not None:
+                progress(done)
+        if "pdf" in formats:
+            written["pdf"] = run.run_dir / SLIDES_FILE
+            atomic_write_bytes(written["pdf"], render_slides(run) if slides is None else slides.result())
+            if progress is not None:
+                progress(done + 1)
     return written
 
 
