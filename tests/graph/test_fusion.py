@@ -135,10 +135,11 @@ def test_bad_input_is_one_clear_input_error(two_modalities, change, message):
 @pytest.mark.parametrize(
     "options, message",
     [
-        ({"rule": "union"}, "fusion rule: found 'union'"),
+        ({"rule": "union"}, "rule: found 'union'; expected one of 'auto'"),
         ({"rule": "quorum", "quorum": 3}, "from 1 to 2"),
-        ({"n_neighbours": 0}, "at least 1"),
-        ({"metric": "manhattan"}, "metric of modality 'expr'"),
+        ({"n_neighbours": 1}, "n_neighbours: found 1; expected an integer >= 2"),
+        ({"metric": "manhattan"}, "metric: found 'manhattan'"),
+        ({"metric": {"expr": "cosine", "meth": "manhattan"}}, "metric of modality 'meth'"),
         ({"metric": {"expr": "cosine"}}, "no entry for modality 'meth'"),
         ({"kernel": "laplace"}, "kernel: found 'laplace'"),
         ({"kernel_spread": 0}, "kernel_spread"),

@@ -9,7 +9,7 @@ from hypothesis.extra.numpy import arrays
 
 from strataweave import InputError
 from strataweave.graph import fuse_modalities
-from strataweave.graph.rules import check_rule, combine_values
+from strataweave.graph.rules import combine_values
 
 
 @st.composite
@@ -106,9 +106,11 @@ def test_quorum_of_whole_graphs_is_monotone_in_q():
 
 @pytest.mark.parametrize(
     "rule, quorum, message",
-    [("overlap", None, "expected one of"), ("quorum", 0, "from 1 to 3"), ("quorum", 4, "from 1 to 3"),
-     ("quorum", None, "from 1 to 3"), ("average", 2, "only with rule 'quorum'")],
+    [("overlap", None, "rule: found 'overlap'; expected one of"), ("quorum", 0, "quorum: found 0; expected an integer >= 1"),
+     ("quorum", 4, "from 1 to 3"), ("quorum", None, "from 1 to 3"), ("average", 2, "only with rule 'quorum'")],
 )
 def test_bad_rule_or_quorum_is_an_input_error(rule, quorum, message):
+    rng = np.random.default_rng(0)
+    data = {f"m{m}": pd.DataFrame(rng.normal(size=(12, 3))) for m in range(3)}
     with pytest.raises(InputError, match=message):
-        check_rule(rule, quorum, 3)
+        fuse_modalities(data, rule=rule, quorum=quorum, n_neighbours=4)

@@ -151,7 +151,7 @@ def test_bad_counts_are_input_errors(cohort, counts, settings, message):
 
 def test_bad_settings_and_misaligned_inputs_are_input_errors(cohort):
     for fraction in (0.0, 1.5):
-        with pytest.raises(InputError, match=f"fraction: found {fraction}; expected a fraction in"):
+        with pytest.raises(InputError, match=f"fraction: found {fraction}; expected a number > 0 and <= 1"):
             SweepSettings(fraction=fraction)
     with pytest.raises(InputError, match="graph: found"):
         sweep_subtype_counts(cohort.views, sp.identity(5, format="csr"), COUNTS)

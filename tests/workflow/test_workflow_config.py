@@ -154,15 +154,9 @@ def test_workflow_defaults_are_the_numeric_layers_defaults() -> None:
     import inspect
 
     from strataweave.evaluate import associate_clinical, evaluate_survival
-    from strataweave.factorize import JointNMF
-    from strataweave.graph import fuse_modalities
-    from strataweave.workflow.config import EvaluationSettings, FactorizationSettings, GraphSettings
+    from strataweave.workflow.config import EvaluationSettings
 
-    pairs = [
-        (GraphSettings, fuse_modalities, "n_neighbours"),
-        (FactorizationSettings, JointNMF, "graph_weight"),
-        (FactorizationSettings, JointNMF, "tol"),
-        (FactorizationSettings, JointNMF, "max_iter"),
+    pairs = [  # the estimators' keys read their parameter tables (test_parameter_tables)
         (EvaluationSettings, evaluate_survival, "n_permutations"),
         (EvaluationSettings, associate_clinical, "n_monte_carlo"),
     ]

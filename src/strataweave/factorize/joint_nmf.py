@@ -21,6 +21,7 @@ from strataweave.factorize.updates import (
     update_patient_factor,
 )
 from strataweave.factorize.views import prepare_views
+from strataweave.parameters import Parameter, check_parameters, choice, integer, number
 from strataweave.seeding import child_seeds
 
 INIT_METHODS = ("nndsvda", "nndsvd", "random")
@@ -28,9 +29,22 @@ DTYPES = {"float64": np.float64, "float32": np.float32}
 SETTLED = 1e-9  # projections stop once a step moves the factor by less than this share of its size
 
 
-def _check_choice(name: str, value, allowed) -> None:
-    if value not in allowed:
-        raise InputError(f"{name}: found {value!r}; expected one of {', '.join(map(str, allowed))}")
+#: JointNMF's parameters: rule, default (the same as __init__'s, tested) and help; the estimator
+#: checks them once per fit, the workflow's [factorization] keys and their reference read them.
+PARAMETERS = {
+    "n_components": Parameter(integer(1), 4, "components of the patient factor (the model's rank)"),
+    "graph_weight": Parameter(number(minimum=0), 1.0, "weight of the graph smoothness, free of cohort size"),
+    "max_iter": Parameter(integer(1), 300, "most iterations of one fit"),
+    "tol": Parameter(
+        number(minimum=0), 1e-5,
+        "settled when the objective falls by less than this share of the zero model's, three iterations in a row",
+    ),
+    "init": Parameter(choice(*INIT_METHODS), "nndsvda", "the first fit's starting factors; restarts after it are random"),
+    "n_restarts": Parameter(integer(1), 1, "fits from different starts; the lowest objective wins"),
+    "dtype": Parameter(choice(*DTYPES), "float32", "precision of the factors and products"),
+    "inner_updates": Parameter(integer(1), 10, "most cheap inner updates per outer iteration"),
+    "transform_max_iter": Parameter(integer(1), 2000, "most updates when projecting new patients"),
+}
 
 
 # Own code: no library NMF masks missing patients or adds a graph (on one full view: 2-5x faster than scikit-learn's mu, slower than cd).
@@ -75,15 +89,6 @@ class JointNMF(BaseEstimator):
         self.modality_weights = modality_weights
         self.inner_updates = inner_updates
         self.transform_max_iter = transform_max_iter
-
-    def _check_params(self) -> None:
-        _check_choice("init", self.init, INIT_METHODS)
-        _check_choice("dtype", self.dtype, tuple(DTYPES))
-        for name in ("max_iter", "n_restarts", "inner_updates", "transform_max_iter"):
-            if int(getattr(self, name)) < 1:
-                raise InputError(f"{name}: found {getattr(self, name)}; expected an integer >= 1")
-        if self.tol < 0:
-            raise InputError(f"tol: found {self.tol}; expected a value >= 0")
 
     def _start(self, prepared, smoothness, rng, W_init, H_init, method):
         blocks, n, k = prepared.blocks, prepared.n_patients, self.n_components
@@ -131,7 +136,7 @@ class JointNMF(BaseEstimator):
         a bool matrix (entry observed). `graph`: sparse affinity aligned with the view rows,
         or a PatientGraph (its patients must match the views' index).
         """
-        self._check_params()
+        check_parameters(PARAMETERS, self.get_params())
         prepared = prepare_views(views, mask=mask, weights=self.modality_weights,
                                  n_components=self.n_components, dtype=DTYPES[self.dtype])
         blocks, n = prepared.blocks, prepared.n_patients

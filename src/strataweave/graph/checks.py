@@ -8,7 +8,6 @@ import numpy as np
 import pandas as pd
 
 from strataweave.errors import InputError
-from strataweave.graph.kernels import KERNELS
 from strataweave.graph.metrics import METRICS
 
 
@@ -26,22 +25,6 @@ def metric_per_modality(metric: str | Mapping[str, str], names: list[str]) -> di
             raise InputError(f"metric: found no entry for modality {name!r}; expected one per modality")
         check_choice(f"metric of modality {name!r}", chosen[name], METRICS)
     return {name: chosen[name] for name in names}
-
-
-def check_count(what: str, value) -> None:
-    """InputError unless `value` is a whole number of at least 1."""
-    if isinstance(value, bool) or not isinstance(value, (int, np.integer)) or value < 1:
-        raise InputError(f"{what}: found {value!r}; expected a whole number of at least 1")
-
-
-def check_settings(n_neighbours, kernel: str, kernel_spread: float, bandwidth) -> None:
-    """InputError for a neighbour count, kernel or width that cannot be used."""
-    check_count("n_neighbours", n_neighbours)
-    check_choice("kernel", kernel, KERNELS)
-    if not kernel_spread > 0:
-        raise InputError(f"kernel_spread: found {kernel_spread!r}; expected a number above 0")
-    if bandwidth is not None and not bandwidth > 0:
-        raise InputError(f"bandwidth: found {bandwidth!r}; expected a number above 0 or None")
 
 
 def checked_matrix(name: str, frame, metric: str, n_neighbours: int) -> np.ndarray:

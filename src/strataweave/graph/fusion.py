@@ -15,16 +15,37 @@ import numpy as np
 import pandas as pd
 
 from strataweave.errors import InputError
-from strataweave.graph.checks import check_count, check_overlap, check_settings, checked_matrix, metric_per_modality
+from strataweave.graph.checks import check_overlap, checked_matrix, metric_per_modality
 from strataweave.graph.diffusion import diffuse
-from strataweave.graph.kernels import default_bandwidth, gaussian, local_scales, scaled_exponential
-from strataweave.graph.metrics import paired_distances, prepare_rows
-from strataweave.graph.neighbours import APPROXIMATE_ABOVE, check_search, chosen_search, find_neighbours
+from strataweave.graph.kernels import KERNELS, default_bandwidth, gaussian, local_scales, scaled_exponential
+from strataweave.graph.metrics import METRICS, paired_distances, prepare_rows
+from strataweave.graph.neighbours import APPROXIMATE_ABOVE, SEARCHES, check_search, chosen_search, find_neighbours
 from strataweave.graph.pairs import neighbour_pairs, pair_codes, strongest_pairs, symmetric_matrix, unique_pairs
 from strataweave.graph.patient_graph import PatientGraph
 from strataweave.graph.rule_choice import choose_rule, rule_candidates
-from strataweave.graph.rules import check_rule, combine_values
+from strataweave.graph.rules import RULES, check_quorum, combine_values
+from strataweave.parameters import Parameter, check_parameters, choice, integer, number
 from strataweave.seeding import child_seeds
+
+
+#: fuse_modalities' parameters: rule, default (the same as the signature's, tested) and help; the
+#: function checks them once, GraphFusion passes its own through, the workflow's [graph] keys read them.
+PARAMETERS = {
+    "rule": Parameter(choice(*RULES), "auto", "how the modality graphs are fused; auto: the intersection, a quorum "
+                      "or the average, whichever graph the modalities themselves confirm most"),
+    "quorum": Parameter(integer(1), None, "modalities that must agree (rule = quorum)"),
+    "n_neighbours": Parameter(integer(2), 20, "neighbours kept per patient"),
+    "metric": Parameter(choice(*METRICS), "euclidean", "distance between patients (in Python also one per modality)"),
+    "kernel": Parameter(choice(*KERNELS), "scaled_exponential", "how distances become affinities"),
+    "kernel_spread": Parameter(number(above=0), 0.5, "width of the scaled exponential kernel, in local scales"),
+    "bandwidth": Parameter(number(above=0), None, "width of the gaussian kernel (default: per modality, the "
+                           "median k-nearest-neighbour distance)"),
+    "diffusion_neighbours": Parameter(integer(1), None, "neighbours of the diffusion rule (default: n_neighbours)"),
+    "diffusion_iterations": Parameter(integer(1), 20, "iterations of the diffusion rule"),
+    "neighbour_search": Parameter(choice(*SEARCHES), "auto", f"auto: approximate (pynndescent, seeded from "
+                                  f"random_state, the run's seed) for a modality of more than {APPROXIMATE_ABOVE} patients when installed, "
+                                  "exact otherwise"),
+}
 
 
 @dataclass(frozen=True)
@@ -79,12 +100,12 @@ def fuse_modalities(
         raise InputError(f"modalities: found {type(data).__name__} {data!r:.40}; expected a non-empty dict of DataFrames")
     names = [str(name) for name in data]
     frames = dict(zip(names, data.values()))
-    check_rule(rule, quorum, len(names))
-    check_settings(n_neighbours, kernel, kernel_spread, bandwidth)
-    check_count("diffusion_iterations", diffusion_iterations)
+    given = dict(rule=rule, quorum=quorum, n_neighbours=n_neighbours, kernel=kernel, kernel_spread=kernel_spread,
+                 bandwidth=bandwidth, diffusion_neighbours=diffusion_neighbours,
+                 diffusion_iterations=diffusion_iterations, neighbour_search=neighbour_search)
+    check_parameters(PARAMETERS, given if isinstance(metric, Mapping) else {**given, "metric": metric})
+    check_quorum(rule, quorum, len(names))
     check_search(neighbour_search)
-    if diffusion_neighbours is not None:
-        check_count("diffusion_neighbours", diffusion_neighbours)
     metrics = metric_per_modality(metric, names)
     matrices = {name: checked_matrix(name, frames[name], metrics[name], n_neighbours) for name in names}
     check_overlap({name: frames[name].index for name in names})

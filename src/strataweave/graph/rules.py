@@ -14,10 +14,8 @@ from strataweave.errors import InputError
 RULES = ("auto", "intersection", "quorum", "average", "diffusion")
 
 
-def check_rule(rule: str, quorum: int | None, n_modalities: int) -> None:
-    """InputError for an unknown rule, or a quorum missing, misplaced or outside 1..n."""
-    if rule not in RULES:
-        raise InputError(f"fusion rule: found {rule!r}; expected one of {', '.join(RULES)}")
+def check_quorum(rule: str, quorum: int | None, n_modalities: int) -> None:
+    """InputError for a quorum missing, misplaced or outside 1..n (the rule itself is checked by its parameter table)."""
     if rule != "quorum":
         if quorum is not None:
             raise InputError(f"quorum: found {quorum!r} with rule {rule!r}; expected it only with rule 'quorum'")

@@ -7,12 +7,35 @@ from collections.abc import Iterable
 from dataclasses import asdict, dataclass
 
 from strataweave.errors import InputError
+from strataweave.parameters import Parameter, check_parameters, choice, flag, integer, list_of, number
 from strataweave.subtypes.consensus import check_window
 from strataweave.subtypes.partitions import PARTITION_SOURCES
 
 
 START_FROM = ("graph", "init")
 LABELS_FROM = ("best_fit", *PARTITION_SOURCES)
+
+
+#: The sweep's parameters: rule, default and help; SweepSettings takes its defaults from here and
+#: checks its values against it once, the workflow's [subtypes] and [resampling] keys read it.
+PARAMETERS = {
+    "n_resamples": Parameter(integer(2), 50, "resamples per subtype count"),
+    "fraction": Parameter(number(maximum=1, above=0), 0.8, "share of patients per resample"),
+    "feature_fraction": Parameter(number(maximum=1, above=0), 1.0, "share of features per resample"),
+    "pac_window": Parameter(list_of(number(0, 1), "two numbers between 0 and 1, lower first"), (0.1, 0.9),
+                            "consensus values counted as ambiguous by PAC"),
+    "pac_tolerance": Parameter(number(minimum=0), 0.01, "PAC differences below this are ties"),
+    "min_size": Parameter(integer(1), None, "never recommend a count with a smaller subtype "
+                                            "(default: 2 % of the patients, at least 5)"),
+    "core_threshold": Parameter(number(0, 1), 0.8, "mean consensus with the own subtype"),
+    "user_count": Parameter(integer(2), None, "a count fixed by the user instead of the rule's"),
+    "resample_restarts": Parameter(integer(1), 1, "NMF restarts per resample"),
+    "warm_start": Parameter(flag(), False, "start resamples from the full-data factors"),
+    "start_from": Parameter(choice(*START_FROM), "graph", "graph: start each fit from the spectral partition of "
+                                                            "its fused graph; init: from `init`"),
+    "labels_from": Parameter(choice(*LABELS_FROM), "best_fit", "best_fit: the candidate partition with the highest "
+                             "mean modularity on the modalities' graphs; or one candidate"),
+}
 
 
 @dataclass(frozen=True)
@@ -41,38 +64,22 @@ class SweepSettings:
     "fused_graph", "concatenation") takes that one always.
     """
 
-    n_resamples: int = 50
-    fraction: float = 0.8
-    feature_fraction: float = 1.0
-    pac_window: tuple[float, float] = (0.1, 0.9)
-    pac_tolerance: float = 0.01
-    min_size: int | None = None
-    core_threshold: float = 0.8
-    user_count: int | None = None
-    resample_restarts: int = 1
-    warm_start: bool = False
-    start_from: str = "graph"
-    labels_from: str = "best_fit"
+    n_resamples: int = PARAMETERS["n_resamples"].default
+    fraction: float = PARAMETERS["fraction"].default
+    feature_fraction: float = PARAMETERS["feature_fraction"].default
+    pac_window: tuple[float, float] = PARAMETERS["pac_window"].default
+    pac_tolerance: float = PARAMETERS["pac_tolerance"].default
+    min_size: int | None = PARAMETERS["min_size"].default
+    core_threshold: float = PARAMETERS["core_threshold"].default
+    user_count: int | None = PARAMETERS["user_count"].default
+    resample_restarts: int = PARAMETERS["resample_restarts"].default
+    warm_start: bool = PARAMETERS["warm_start"].default
+    start_from: str = PARAMETERS["start_from"].default
+    labels_from: str = PARAMETERS["labels_from"].default
 
     def __post_init__(self) -> None:
+        check_parameters(PARAMETERS, asdict(self))
         object.__setattr__(self, "pac_window", check_window(self.pac_window))
-        for name in ("fraction", "feature_fraction"):
-            value = getattr(self, name)
-            if not 0.0 < value <= 1.0:
-                raise InputError(f"{name}: found {value}; expected a fraction in (0, 1]")
-        checked = [("n_resamples", 2), ("resample_restarts", 1)] + ([("min_size", 1)] if self.min_size is not None else [])
-        for name, lowest in checked:
-            value = getattr(self, name)
-            if isinstance(value, bool) or not isinstance(value, int) or value < lowest:
-                raise InputError(f"{name}: found {value!r}; expected a whole number >= {lowest}")
-        if self.start_from not in START_FROM:
-            raise InputError(f"start_from: found {self.start_from!r}; expected one of {', '.join(START_FROM)}")
-        if self.labels_from not in LABELS_FROM:
-            raise InputError(f"labels_from: found {self.labels_from!r}; expected one of {', '.join(LABELS_FROM)}")
-        if not 0.0 <= self.core_threshold <= 1.0:
-            raise InputError(f"core_threshold: found {self.core_threshold}; expected a value in [0, 1]")
-        if self.pac_tolerance < 0:
-            raise InputError(f"pac_tolerance: found {self.pac_tolerance}; expected a value >= 0")
 
     def to_dict(self) -> dict:
         """Plain JSON-ready parameters."""

@@ -5,10 +5,11 @@ error is one `InputError` line naming the file and the key, relative paths resol
 against the workflow file's folder, and everything not given takes its default.
 
 Sections, in the order they build on each other:
-- value rules: each accepts a TOML value or says what it expected;
 - the sections of the file: one frozen dataclass per section, one field per key (the field
-  name is the TOML key, its rule sits in `metadata["rule"]`, a field without a default is
-  required), so a key exists in exactly one place;
+  name is the TOML key, its rule (see `strataweave.parameters`) sits in `metadata["rule"]`, a
+  field without a default is required), so a key exists in exactly one place; a key that is
+  an estimator's parameter takes its rule, default and help from that estimator's parameter
+  table (`key_from`);
 - the `Workflow` and the parser that reads the sections' definitions;
 - the reference of every key (`workflow_reference`, written to workflows/REFERENCE.md by
   `python -m strataweave.workflow.config`), read from the same definitions.
@@ -18,11 +19,10 @@ from __future__ import annotations
 
 import dataclasses
 import inspect
-import re
 import tomllib
+from collections.abc import Mapping
 from dataclasses import dataclass, field, fields
 from pathlib import Path
-from typing import Callable
 
 from strataweave.data import Preprocessor
 from strataweave.data.assembly import ANALYSIS_DEFAULTS
@@ -35,159 +35,18 @@ from strataweave.data.validation import KINDS
 from strataweave.errors import InputError
 from strataweave.evaluate import associate_clinical, enrich_markers, evaluate_survival, find_markers
 from strataweave.evaluate.markers import TESTS
-from strataweave.factorize import JointNMF
-from strataweave.factorize.joint_nmf import INIT_METHODS
-from strataweave.graph import fuse_modalities
-from strataweave.graph.kernels import KERNELS
-from strataweave.graph.metrics import METRICS
-from strataweave.graph.neighbours import APPROXIMATE_ABOVE, SEARCHES
-from strataweave.graph.rules import RULES
+from strataweave.factorize.joint_nmf import PARAMETERS as NMF_PARAMETERS
+from strataweave.graph.fusion import PARAMETERS as FUSION_PARAMETERS
+from strataweave.parameters import (
+    Parameter, Rule, RuleBroken, choice, described, either, flag, integer, list_of, number, text,
+)
 from strataweave.subtypes.parallel import BACKENDS
-from strataweave.subtypes.settings import LABELS_FROM, START_FROM, SweepSettings
+from strataweave.subtypes.settings import PARAMETERS as SWEEP_PARAMETERS
+
 
 # ---------------------------------------------------------------------------------------------
-# Value rules: a rule is a callable `rule(value, base_dir) -> converted value` that raises
-# `RuleBroken(expected)` when the value does not fit; the parser turns that into one
-# `InputError` line naming the key.
+# The one value rule of its own: the other rules are the estimators' (strataweave.parameters)
 # ---------------------------------------------------------------------------------------------
-
-Rule = Callable[[object, Path], object]
-
-
-class RuleBroken(Exception):
-    """A value does not fit its rule; the argument says what was expected."""
-
-
-def _rule(check: Rule, expected: str) -> Rule:
-    """`check` as a rule that also says what it accepts (`rule.expected`, for the reference)."""
-    check.expected = expected
-    return check
-
-
-def _is_integer(value: object) -> bool:
-    return isinstance(value, int) and not isinstance(value, bool)
-
-
-def _is_number(value: object) -> bool:
-    return isinstance(value, (int, float)) and not isinstance(value, bool)
-
-
-def _bound(value: float) -> str:
-    """A bound as a reader expects it: integers in full (no 4.29497e+09), other numbers short."""
-    return str(value) if _is_integer(value) else f"{value:g}"
-
-
-def _bounds_text(minimum: float | None, maximum: float | None, above: float | None) -> str:
-    parts = []
-    if above is not None:
-        parts.append(f"> {_bound(above)}")
-    if minimum is not None:
-        parts.append(f">= {_bound(minimum)}")
-    if maximum is not None:
-        parts.append(f"<= {_bound(maximum)}")
-    return (" " + " and ".join(parts)) if parts else ""
-
-
-def _within(value: float, minimum: float | None, maximum: float | None, above: float | None) -> bool:
-    return (
-        (minimum is None or value >= minimum)
-        and (maximum is None or value <= maximum)
-        and (above is None or value > above)
-    )
-
-
-def integer(minimum: int | None = None, maximum: int | None = None) -> Rule:
-    """A whole number within the bounds."""
-    expected = "an integer" + _bounds_text(minimum, maximum, None)
-
-    def rule(value: object, base_dir: Path) -> int:
-        if not _is_integer(value) or not _within(value, minimum, maximum, None):
-            raise RuleBroken(expected)
-        return int(value)
-
-    return _rule(rule, expected)
-
-
-def number(minimum: float | None = None, maximum: float | None = None, above: float | None = None) -> Rule:
-    """A real number within the bounds (integers accepted)."""
-    expected = "a number" + _bounds_text(minimum, maximum, above)
-
-    def rule(value: object, base_dir: Path) -> float:
-        if not _is_number(value) or not _within(float(value), minimum, maximum, above):
-            raise RuleBroken(expected)
-        return float(value)
-
-    return _rule(rule, expected)
-
-
-def text(pattern: str | None = None, describe: str = "a text string") -> Rule:
-    """A non-empty string, optionally matching a full regular expression."""
-    compiled = re.compile(pattern) if pattern else None
-
-    def rule(value: object, base_dir: Path) -> str:
-        if not isinstance(value, str) or not value.strip():
-            raise RuleBroken(describe)
-        if compiled is not None and not compiled.fullmatch(value):
-            raise RuleBroken(describe)
-        return value
-
-    return _rule(rule, describe)
-
-
-def choice(*options: str) -> Rule:
-    """One of the listed words."""
-    expected = "one of " + ", ".join(repr(o) for o in options)
-
-    def rule(value: object, base_dir: Path) -> str:
-        if value not in options:
-            raise RuleBroken(expected)
-        return str(value)
-
-    return _rule(rule, expected)
-
-
-def flag() -> Rule:
-    """true or false."""
-
-    def rule(value: object, base_dir: Path) -> bool:
-        if not isinstance(value, bool):
-            raise RuleBroken("true or false")
-        return value
-
-    return _rule(rule, "true or false")
-
-
-def list_of(item: Rule, describe: str, allow_single: bool = False, unique: bool = True) -> Rule:
-    """A list whose items all follow `item` (a single value too if `allow_single`), as a tuple."""
-
-    def rule(value: object, base_dir: Path) -> tuple:
-        values = [value] if allow_single and not isinstance(value, list) else value
-        if not isinstance(values, list):
-            raise RuleBroken(describe)
-        try:
-            converted = tuple(item(v, base_dir) for v in values)
-        except RuleBroken:
-            raise RuleBroken(describe) from None
-        if unique and len(set(converted)) != len(converted):
-            raise RuleBroken(describe + " without repeats")
-        return converted
-
-    return _rule(rule, describe)
-
-
-def either(first: Rule, second: Rule, describe: str) -> Rule:
-    """A value that fits `first`, else `second`."""
-
-    def rule(value: object, base_dir: Path) -> object:
-        for candidate in (first, second):
-            try:
-                return candidate(value, base_dir)
-            except RuleBroken:
-                continue
-        raise RuleBroken(describe)
-
-    return _rule(rule, describe)
-
 
 def existing_file() -> Rule:
     """A path to an existing file, relative paths taken against the workflow file's folder."""
@@ -201,7 +60,7 @@ def existing_file() -> Rule:
             raise RuleBroken(f"an existing file (looked for {resolved})")
         return resolved
 
-    return _rule(rule, "the path of an existing file, relative to the workflow file's folder")
+    return described(rule, "the path of an existing file, relative to the workflow file's folder")
 
 
 # ---------------------------------------------------------------------------------------------
@@ -214,6 +73,12 @@ SAFE_NAME = r"[A-Za-z0-9][A-Za-z0-9_.-]*"
 def default_of(function, parameter: str) -> object:
     """The default of a numeric layer's parameter, so the workflow and the layer never disagree."""
     return inspect.signature(function).parameters[parameter].default
+
+
+def key_from(table: Mapping[str, Parameter], name: str) -> object:
+    """The dataclass field of the workflow key `name`: rule, default and help from an estimator's parameter table."""
+    parameter = table[name]
+    return key(parameter.rule, parameter.default, doc=parameter.help)
 
 
 def key(rule: Rule, *default: object, doc: str = "") -> object:
@@ -285,43 +150,24 @@ class ModalitySettings:
 class GraphSettings:
     """[graph]: per-modality patient-similarity graphs and the rule that fuses them."""
 
-    n_neighbours: int = key(integer(2), default_of(fuse_modalities, "n_neighbours"), doc="neighbours kept per patient")
-    metric: str = key(choice(*METRICS), default_of(fuse_modalities, "metric"), doc="distance between patients")
-    kernel: str = key(choice(*KERNELS), default_of(fuse_modalities, "kernel"), doc="how distances become affinities")
-    rule: str = key(
-        choice(*RULES), default_of(fuse_modalities, "rule"),
-        doc="how the modality graphs are fused; auto: the intersection, a quorum or the average, whichever "
-        "graph the modalities themselves confirm most",
-    )
-    quorum: int | None = key(integer(1), None, doc="modalities that must agree (rule = quorum)")
-    neighbour_search: str = key(
-        choice(*SEARCHES), default_of(fuse_modalities, "neighbour_search"),
-        doc=f"auto: approximate (pynndescent, seeded from the run's seed) for a modality of more than "
-        f"{APPROXIMATE_ABOVE} patients when installed, exact otherwise",
-    )
+    n_neighbours: int = key_from(FUSION_PARAMETERS, "n_neighbours")
+    metric: str = key_from(FUSION_PARAMETERS, "metric")
+    kernel: str = key_from(FUSION_PARAMETERS, "kernel")
+    rule: str = key_from(FUSION_PARAMETERS, "rule")
+    quorum: int | None = key_from(FUSION_PARAMETERS, "quorum")
+    neighbour_search: str = key_from(FUSION_PARAMETERS, "neighbour_search")
 
 
 @dataclass(frozen=True)
 class FactorizationSettings:
     """[factorization]: the graph-regularised joint NMF."""
 
-    graph_weight: float = key(
-        number(minimum=0), default_of(JointNMF, "graph_weight"), doc="weight of the graph smoothness, free of cohort size"
-    )
-    n_restarts: int = key(
-        integer(1), SweepSettings.resample_restarts,
-        doc="full-data fits per count, the lowest objective wins; as many as each resample has",
-    )
-    max_iter: int = key(integer(1), default_of(JointNMF, "max_iter"), doc="most iterations of one fit")
-    tol: float = key(
-        number(above=0), default_of(JointNMF, "tol"),
-        doc="settled when the objective falls by less than this share of the zero model's, three iterations in a row",
-    )
-    init: str = key(choice(*INIT_METHODS), default_of(JointNMF, "init"), doc="the starting factors with start_from = init")
-    start_from: str = key(
-        choice(*START_FROM), SweepSettings.start_from,
-        doc="graph: start each fit from the spectral partition of its fused graph; init: from `init`",
-    )
+    graph_weight: float = key_from(NMF_PARAMETERS, "graph_weight")
+    n_restarts: int = key_from(NMF_PARAMETERS, "n_restarts")
+    max_iter: int = key_from(NMF_PARAMETERS, "max_iter")
+    tol: float = key_from(NMF_PARAMETERS, "tol")
+    init: str = key_from(NMF_PARAMETERS, "init")
+    start_from: str = key_from(SWEEP_PARAMETERS, "start_from")
 
 
 @dataclass(frozen=True)
@@ -336,31 +182,22 @@ class SubtypeSettings:
         either(choice("recommended"), integer(2), "'recommended' or an integer >= 2"),
         "recommended", doc="or one of the counts, to override the recommendation",
     )
-    min_size: int | None = key(
-        integer(1), SweepSettings.min_size,
-        doc="never recommend a count with a smaller subtype (default: 2 % of the patients, at least 5)",
-    )
-    pac_window: tuple[float, ...] = key(
-        list_of(number(0, 1), "two numbers between 0 and 1, lower first"), SweepSettings.pac_window,
-        doc="consensus values counted as ambiguous by PAC",
-    )
-    pac_tolerance: float = key(number(minimum=0), SweepSettings.pac_tolerance, doc="PAC differences below this are ties")
-    core_threshold: float = key(number(0, 1), SweepSettings.core_threshold, doc="mean consensus with the own subtype")
-    labels_from: str = key(
-        choice(*LABELS_FROM), SweepSettings.labels_from,
-        doc="best_fit: the candidate partition with the highest mean modularity on the modalities' graphs; or one candidate",
-    )
+    min_size: int | None = key_from(SWEEP_PARAMETERS, "min_size")
+    pac_window: tuple[float, ...] = key_from(SWEEP_PARAMETERS, "pac_window")
+    pac_tolerance: float = key_from(SWEEP_PARAMETERS, "pac_tolerance")
+    core_threshold: float = key_from(SWEEP_PARAMETERS, "core_threshold")
+    labels_from: str = key_from(SWEEP_PARAMETERS, "labels_from")
 
 
 @dataclass(frozen=True)
 class ResamplingSettings:
     """[resampling]: the consensus resamples and where they run."""
 
-    n_resamples: int = key(integer(2), SweepSettings.n_resamples, doc="resamples per subtype count")
-    fraction: float = key(number(maximum=1, above=0), SweepSettings.fraction, doc="share of patients per resample")
-    feature_fraction: float = key(number(maximum=1, above=0), SweepSettings.feature_fraction, doc="share of features per resample")
-    resample_restarts: int = key(integer(1), SweepSettings.resample_restarts, doc="NMF restarts per resample")
-    warm_start: bool = key(flag(), SweepSettings.warm_start, doc="start resamples from the full-data factors")
+    n_resamples: int = key_from(SWEEP_PARAMETERS, "n_resamples")
+    fraction: float = key_from(SWEEP_PARAMETERS, "fraction")
+    feature_fraction: float = key_from(SWEEP_PARAMETERS, "feature_fraction")
+    resample_restarts: int = key_from(SWEEP_PARAMETERS, "resample_restarts")
+    warm_start: bool = key_from(SWEEP_PARAMETERS, "warm_start")
     backend: str = key(choice(*BACKENDS), "processes", doc="results are the same on each")
     n_jobs: int = key(integer(0), 0, doc="workers; 0 = every core this process may use")
     scheduler: str | None = key(text(), None, doc="Dask scheduler address (backend = dask)")
