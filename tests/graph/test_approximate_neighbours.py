@@ -105,7 +105,8 @@ def test_auto_is_exact_without_pynndescent_and_approximate_then_says_how_to_inst
 
 def test_an_unknown_search_names_the_parameter_and_the_choices():
     data = {"a": pd.DataFrame(np.random.default_rng(0).normal(size=(20, 4)))}
-    with pytest.raises(InputError, match="neighbour_search: found 'fast'; expected one of 'auto', 'exact', 'approximate'"):
+    expected = "neighbour_search: found 'fast'; expected one of 'auto', 'exact', 'approximate'"
+    with pytest.raises(InputError, match=expected):
         fuse_modalities(data, n_neighbours=3, neighbour_search="fast")
 
 

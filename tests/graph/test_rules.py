@@ -106,8 +106,8 @@ def test_quorum_of_whole_graphs_is_monotone_in_q():
 
 @pytest.mark.parametrize(
     "rule, quorum, message",
-    [("overlap", None, "rule: found 'overlap'; expected one of"), ("quorum", 0, "quorum: found 0; expected an integer >= 1"),
-     ("quorum", 4, "from 1 to 3"), ("quorum", None, "from 1 to 3"), ("average", 2, "only with rule 'quorum'")],
+    [("overlap", None, "rule: found 'overlap'; expected one of"),
+     ("quorum", 0, "quorum: found 0; expected an integer >= 1"), ("quorum", 4, "from 1 to 3"), ("quorum", None, "from 1 to 3"), ("average", 2, "only with rule 'quorum'")],
 )
 def test_bad_rule_or_quorum_is_an_input_error(rule, quorum, message):
     rng = np.random.default_rng(0)

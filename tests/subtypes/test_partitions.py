@@ -174,7 +174,8 @@ def _resample_inputs(cohort, sources):
     concatenated = concatenated_scaled(list(views.values()))
     affinity = sp.csr_matrix(cohort.graph.affinity)
     return SweepInputs(views, affinity, [2, 3], {"max_iter": 40}, SweepSettings(n_resamples=2, min_size=5),
-                       concatenated, joint_coordinates(concatenated, 0), graph_degree(affinity), [affinity], sources=sources)
+                       concatenated, joint_coordinates(concatenated, 0), graph_degree(affinity), [affinity],
+                       sources=sources)
 
 
 def test_a_resample_repeats_each_counts_full_data_choice(cohort, monkeypatch):

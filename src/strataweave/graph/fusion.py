@@ -42,9 +42,11 @@ PARAMETERS = {
                            "median k-nearest-neighbour distance)"),
     "diffusion_neighbours": Parameter(integer(1), None, "neighbours of the diffusion rule (default: n_neighbours)"),
     "diffusion_iterations": Parameter(integer(1), 20, "iterations of the diffusion rule"),
-    "neighbour_search": Parameter(choice(*SEARCHES), "auto", f"auto: approximate (pynndescent, seeded from "
-                                  f"random_state, the run's seed) for a modality of more than {APPROXIMATE_ABOVE} patients when installed, "
-                                  "exact otherwise"),
+    "neighbour_search": Parameter(
+        choice(*SEARCHES), "auto",
+        f"auto: approximate (pynndescent, seeded from random_state, the run's seed) for a modality of more than "
+        f"{APPROXIMATE_ABOVE} patients when installed, exact otherwise",
+    ),
 }
 
 

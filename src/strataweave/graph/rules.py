@@ -15,7 +15,7 @@ RULES = ("auto", "intersection", "quorum", "average", "diffusion")
 
 
 def check_quorum(rule: str, quorum: int | None, n_modalities: int) -> None:
-    """InputError for a quorum missing, misplaced or outside 1..n (the rule itself is checked by its parameter table)."""
+    """InputError for a quorum missing, misplaced or outside 1..n (the rule itself: its parameter table)."""
     if rule != "quorum":
         if quorum is not None:
             raise InputError(f"quorum: found {quorum!r} with rule {rule!r}; expected it only with rule 'quorum'")

@@ -74,8 +74,8 @@ def _partition_phrase(selection: dict, count: int, graph_name: str, cite) -> str
         return f"The subtypes were {''.join(PARTITION_WORDS[taken]).format(graph=graph_name)}."
     words = ", ".join("".join(PARTITION_WORDS[key]).format(graph=graph_name) for key in sources)
     return (f"At each count the subtypes were the partition with the highest mean modularity{cite('newman2006')} "
-            f"over the modalities' own nearest-neighbour graphs among {words}, and every resample of that count repeated "
-            f"the kind of partition chosen; at the chosen count this was "
+            f"over the modalities' own nearest-neighbour graphs among {words}, and every resample of that "
+            f"count repeated the kind of partition chosen; at the chosen count this was "
             f"{PARTITION_WORDS[taken][0].format(graph=graph_name)}.")
 
 
