@@ -82,3 +82,11 @@ def test_a_numpy_whole_number_is_a_whole_number():
     assert JointNMF(np.int64(2), max_iter=np.int64(5)).fit(views).patient_factor_.shape == (20, 2)
     with pytest.raises(InputError, match="max_iter: found True; expected an integer >= 1"):
         JointNMF(2, max_iter=True).fit(views)
+
+
+def test_every_subtype_sweep_parameter_goes_where_a_table_says():
+    # SubtypeSweep hands each parameter to the sweep or the NMF by the table whose row it is
+    own = {"counts", "modality_weights", "backend", "n_jobs", "scheduler", "random_state"}
+    routed = set(SubtypeSweep().get_params()) - own
+    assert routed == (routed & set(SWEEP)) | (routed & set(NMF)) and not set(SWEEP) & set(NMF)
+    assert routed & set(NMF) == {"graph_weight", "max_iter", "tol", "init", "n_restarts"}

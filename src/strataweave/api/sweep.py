@@ -10,18 +10,15 @@ from strataweave.api.display import Shown, fitted, new_axes
 from strataweave.api.graph import GraphFusion
 from strataweave.data.cohort import Cohort
 from strataweave.errors import InputError
+from strataweave.factorize.joint_nmf import PARAMETERS as NMF_PARAMETERS
 from strataweave.factorize.views import relative_modality_weights
 from strataweave.report.palette import NEUTRAL_SHADES, SEQUENTIAL
 from strataweave.subtypes.model import ModelModality, SubtypeModel
 from strataweave.subtypes.parallel import ParallelSettings
 from strataweave.subtypes.result import HIGHER_IS_BETTER
+from strataweave.subtypes.settings import PARAMETERS as SWEEP_PARAMETERS
 from strataweave.subtypes.settings import SweepSettings
 from strataweave.subtypes.sweep import sweep_subtype_counts
-
-#: SubtypeSweep parameters that are SweepSettings fields, and those that go to JointNMF.
-_SWEEP = ("n_resamples", "fraction", "feature_fraction", "pac_window", "pac_tolerance", "min_size",
-          "core_threshold", "resample_restarts", "warm_start", "start_from", "labels_from")
-_FACTORIZATION = ("graph_weight", "max_iter", "tol", "init", "n_restarts")
 
 
 class SubtypeSweep(Shown, BaseEstimator):
@@ -80,12 +77,13 @@ class SubtypeSweep(Shown, BaseEstimator):
         graph = fitted(graph, "graph_") if isinstance(graph, GraphFusion) else graph
         views = dict(zip(cohort.names, cohort.aligned_views()))
         profiles = {name: frame.reindex(cohort.patients) for name, frame in cohort.normalised_views().items()}
-        options = {name: getattr(self, name) for name in _FACTORIZATION}
+        params = self.get_params(deep=False)  # each goes where its parameter table says
+        options = {name: params[name] for name in NMF_PARAMETERS if name in params}
         self.weights_ = self._weights(cohort)
         scaled = relative_modality_weights(list(views.values()), self.weights_)
         if scaled is not None:
             options["modality_weights"] = scaled
-        settings = SweepSettings(**{name: getattr(self, name) for name in _SWEEP})
+        settings = SweepSettings(**{name: params[name] for name in SWEEP_PARAMETERS if name in params})
         parallel = ParallelSettings(backend=self.backend, n_jobs=self.n_jobs, scheduler=self.scheduler)
         self.result_ = sweep_subtype_counts(views, graph, list(self.counts), profiles=profiles, settings=settings,
                                             factorization=options, parallel=parallel, random_state=self.random_state)
