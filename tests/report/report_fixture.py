@@ -122,8 +122,8 @@ def make_results(modality_names=("rna", "methylation"), feature_prefix="FX", tit
             "higher_is_better": {"pac": False, "cophenetic": True, "silhouette": True, "eigengap": True,
                                  "smallest_size": None},
             "partitions": [
-                {"count": k, "source": "fused_graph" if k == 3 else "joint_model", "modularity_joint_model": 0.41,
-                 "modularity_fused_graph": 0.43 if k == 3 else 0.39}
+                {"count": k, "source": "fused_graph" if k == 3 else "joint_model", "agreement_joint_model": 0.41,
+                 "agreement_fused_graph": 0.43 if k == 3 else 0.39}
                 for k in counts
             ],
             "recommended": 3,

@@ -123,7 +123,7 @@ def test_sections_methods_and_rerun_command(rendered, page):
 def test_fusion_rule_and_partition_choices_are_shown_with_their_evidence(page):
     assert "How the fusion rule was chosen" in page and "<td>0.61</td>" in page and "<td>0.47</td>" in page
     assert "Which partition at each count" in page and "<td>fused graph</td>" in page and "<td>0.43</td>" in page
-    assert "Newman MEJ" in page  # the methods text cites the modularity rule
+    assert "Strehl A" in page  # the methods text cites the agreement rule
 
 
 def _subtype_pixels(path: Path, code: int) -> int:

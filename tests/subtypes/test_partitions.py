@@ -1,4 +1,4 @@
-"""The candidate partitions at one count and the modularity rule that picks among them."""
+"""The candidate partitions at one count and the agreement rule that picks among them."""
 
 import numpy as np
 import pytest
@@ -17,6 +17,7 @@ from strataweave.subtypes.partitions import (
     concatenation_partitions,
     graph_degree,
     joint_coordinates,
+    modality_partitions,
 )
 from strataweave.seeding import child_seeds
 from strataweave.subtypes import tasks
@@ -56,29 +57,40 @@ def test_modularity_matches_the_pair_sum_definition_on_a_weighted_graph():
     assert modularity(sp.csr_matrix(dense), labels) == pytest.approx(expected)
 
 
-def test_the_candidate_with_the_highest_modularity_wins_and_a_tie_keeps_the_first():
-    affinity, truth = _cliques([5, 5, 5])
+def test_the_candidate_that_agrees_best_wins_and_a_tie_keeps_the_first():
+    _, truth = _cliques([5, 5, 5])
     shuffled = np.random.default_rng(1).permutation(truth)
-    source, labels, scores = choose_partition([affinity], {"joint_model": shuffled, "fused_graph": truth})
+    everyone = np.arange(truth.size)
+    votes = [(everyone, truth), (everyone, (truth + 1) % 3)]  # two modalities that see the planted groups
+    source, labels, scores = choose_partition({"joint_model": shuffled, "fused_graph": truth}, votes)
     assert source == "fused_graph" and np.array_equal(labels, truth)
-    assert scores["fused_graph"] > scores["joint_model"]
+    # the mean adjusted Rand index with the other candidate and each vote (scikit-learn's adjusted_rand_score)
+    expected = np.mean([adjusted_rand_score(shuffled, truth)] * 3)
+    assert scores["joint_model"] == pytest.approx(expected) and scores["fused_graph"] == pytest.approx((expected + 2) / 3)
     renamed = (truth + 1) % 3  # the same partition under other codes: a tie
-    source, _, _ = choose_partition([affinity], {"joint_model": renamed, "fused_graph": truth})
+    source, _, _ = choose_partition({"joint_model": renamed, "fused_graph": truth}, votes)
     assert source == "joint_model"
 
 
-def test_candidates_are_judged_by_their_mean_modularity_over_the_modalities_graphs():
-    # Two modalities whose graphs both hold the planted cliques; a third graph (say a fused one)
-    # that holds another cut scores the other cut higher, the modalities' mean scores the planted one.
-    planted_graph, planted = _cliques([6, 6, 6])
-    other = np.random.default_rng(2).permutation(planted)
-    other_graph = sp.csr_matrix((other[:, None] == other[None, :]) & ~np.eye(other.size, dtype=bool), dtype=float)
-    candidates = {"joint_model": planted, "fused_graph": other}
-    assert choose_partition([other_graph], candidates)[0] == "fused_graph"
-    source, _, scores = choose_partition([planted_graph, planted_graph, other_graph], candidates)
-    assert source == "joint_model"
-    expected = np.mean([modularity(g, planted) for g in (planted_graph, planted_graph, other_graph)])
-    assert scores["joint_model"] == pytest.approx(expected)
+def test_a_modality_votes_on_the_patients_it_holds_only():
+    # Two cliques seen by a modality that holds only the first 8 patients: its partition of those
+    # 8 picks the candidate that splits them the same way, whatever either does with the rest.
+    graph, planted = _cliques([4, 4])
+    holder = sp.csr_matrix(sp.block_diag([graph, sp.csr_matrix((6, 6))]))
+    votes = modality_partitions([holder], [2], random_state=0)[2]
+    assert len(votes) == 1 and np.array_equal(votes[0][0], np.arange(8))
+    assert adjusted_rand_score(votes[0][1], planted) == 1.0
+    agreeing = np.r_[planted, [0, 1, 0, 1, 0, 1]]
+    other = np.r_[np.tile([0, 1], 4), [0, 0, 0, 1, 1, 1]]
+    source, _, scores = choose_partition({"joint_model": other, "fused_graph": agreeing}, votes)
+    assert source == "fused_graph" and scores["fused_graph"] > scores["joint_model"]
+    assert modality_partitions([holder], [8, 9], random_state=0) == {8: [], 9: []}  # no count as large as its patients
+
+
+def test_a_single_candidate_with_nothing_to_agree_with_is_taken():
+    labels = np.array([0, 0, 1, 1])
+    source, taken, scores = choose_partition({"concatenation": labels}, [])
+    assert source == "concatenation" and taken is labels and np.isnan(scores["concatenation"])
 
 
 def test_concatenation_partition_agrees_with_scikit_learn_spectral_clustering():
@@ -123,17 +135,16 @@ def _sweep(cohort, labels_from):
     )
 
 
-def test_the_sweep_records_each_counts_source_and_takes_the_best_fitting_candidate(cohort):
+def test_the_sweep_records_each_counts_source_and_takes_the_best_agreeing_candidate(cohort):
     result = _sweep(cohort, "best_fit")
     table = result.partitions
     assert list(table.index) == [2, 3] and set(table["source"]) <= set(PARTITION_SOURCES)
     for count, row in table.iterrows():
-        qualities = row[[f"modularity_{name}" for name in PARTITION_SOURCES]].astype(float)
-        assert row[f"modularity_{row['source']}"] == qualities.max()
-        assert result.criteria.loc[count, "modularity"] == pytest.approx(qualities.max())
+        agreements = row[[f"agreement_{name}" for name in PARTITION_SOURCES]].astype(float)
+        assert row[f"agreement_{row['source']}"] == agreements.max()
         labels = result.assignments[count]["subtype"].to_numpy()
         own = [modularity(graph, labels) for graph in cohort.graph.modality_graphs.values()]
-        assert np.mean(own) == pytest.approx(qualities.max())
+        assert result.criteria.loc[count, "modularity"] == pytest.approx(np.mean(own))
 
 
 def test_one_named_candidate_is_taken_at_every_count(cohort):
@@ -175,7 +186,7 @@ def _resample_inputs(cohort, sources):
     affinity = sp.csr_matrix(cohort.graph.affinity)
     return SweepInputs(views, affinity, [2, 3], {"max_iter": 40}, SweepSettings(n_resamples=2, min_size=5),
                        concatenated, joint_coordinates(concatenated, 0), graph_degree(affinity), [affinity],
-                       sources=sources)
+                       {2: [], 3: []}, sources=sources)
 
 
 def test_a_resample_repeats_each_counts_full_data_choice(cohort, monkeypatch):

@@ -78,8 +78,8 @@ def _reproducibility(run: RunView) -> dict[str, Any]:
 
 
 def _partition_rows(selection: dict[str, Any]) -> list[dict[str, Any]]:
-    """The partition chosen at each count and each candidate's mean modularity on the modalities' graphs."""
-    return [{key.replace("modularity_", "mean modularity, "): value.replace("_", " ") if key == "source" else value
+    """The partition chosen at each count and each candidate's agreement with the other partitions."""
+    return [{key.replace("agreement_", "agreement, "): value.replace("_", " ") if key == "source" else value
              for key, value in row.items()} for row in selection.get("partitions") or []]
 
 

@@ -30,6 +30,8 @@ REFERENCES: dict[str, str] = {
     "anders2010": "Anders S, Huber W. Differential expression analysis for sequence count data. "
                   "Genome Biol 2010;11:R106.",
     "hubert1985": "Hubert L, Arabie P. Comparing partitions. J Classif 1985;2:193-218.",
+    "strehl2002": "Strehl A, Ghosh J. Cluster ensembles: a knowledge reuse framework for combining multiple "
+                  "partitions. J Mach Learn Res 2002;3:583-617.",
     "kaplan1958": "Kaplan EL, Meier P. Nonparametric estimation from incomplete observations. "
                   "J Am Stat Assoc 1958;53:457-481.",
     "cox1972": "Cox DR. Regression models and life-tables. J R Stat Soc Series B 1972;34:187-220.",
@@ -68,14 +70,15 @@ def _sampled_phrase(results: dict) -> str:
 def _partition_phrase(selection: dict, count: int, graph_name: str, cite) -> str:
     """Which candidate partition gave the subtypes, and the rule that chose it."""
     rows = {row["count"]: row for row in selection.get("partitions", [])}
-    sources = [key for key in PARTITION_WORDS if f"modularity_{key}" in rows.get(count, {})]
+    sources = [key for key in PARTITION_WORDS if f"agreement_{key}" in rows.get(count, {})]
     taken = rows.get(count, {}).get("source", "joint_model")
     if len(sources) < 2:
         return f"The subtypes were {''.join(PARTITION_WORDS[taken]).format(graph=graph_name)}."
     words = ", ".join("".join(PARTITION_WORDS[key]).format(graph=graph_name) for key in sources)
-    return (f"At each count the subtypes were the partition with the highest mean modularity{cite('newman2006')} "
-            f"over the modalities' own nearest-neighbour graphs among {words}, and every resample of that "
-            f"count repeated the kind of partition chosen; at the chosen count this was "
+    return (f"At each count the subtypes were, among {words}, the partition that agreed best with the others "
+            f"and with each modality's own spectral partition at that count (mean adjusted Rand "
+            f"index; the median partition of a cluster ensemble{cite('strehl2002')}), and every "
+            f"resample of that count repeated the kind of partition chosen; at the chosen count this was "
             f"{PARTITION_WORDS[taken][0].format(graph=graph_name)}.")
 
 

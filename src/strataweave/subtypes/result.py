@@ -78,7 +78,7 @@ class SweepResult:
     baselines: one row per (count, method): ARI and NMI against the joint subtypes,
     silhouette on the fused graph embedding, smallest subtype.
     partitions: one row per count: the candidate partition taken (`source`, see
-    `partitions.PARTITION_SOURCES`) and every candidate's mean modularity on the modalities' own graphs.
+    `partitions.PARTITION_SOURCES`) and every candidate's agreement (`partitions.choose_partition`).
     flow: how subtypes split from each count to the next one swept.
     models: count -> the full-data JointNMF. unconverged: fits that stopped at max_iter.
     """

@@ -33,8 +33,8 @@ PARAMETERS = {
     "warm_start": Parameter(flag(), False, "start resamples from the full-data factors"),
     "start_from": Parameter(choice(*START_FROM), "graph", "graph: start each fit from the spectral partition of "
                                                             "its fused graph; init: from `init`"),
-    "labels_from": Parameter(choice(*LABELS_FROM), "best_fit", "best_fit: the candidate partition with the highest "
-                             "mean modularity on the modalities' graphs; or one candidate"),
+    "labels_from": Parameter(choice(*LABELS_FROM), "best_fit", "best_fit: the candidate partition that agrees best "
+                             "with the others and the modalities' own partitions; or one candidate"),
 }
 
 
@@ -59,8 +59,8 @@ class SweepSettings:
     puts the NMF in the basin of the partition the modalities agree on and lets the data
     term refine it; restarts after the first are random either way.
     labels_from: "best_fit" takes, at each count, the candidate partition of the full-data
-    fit with the highest mean modularity on the modalities' own graphs, and the resamples of that count
-    repeat that candidate (see `partitions`); a candidate's name ("joint_model",
+    fit that agrees best with the other candidates and the modalities' own partitions, and the
+    resamples of that count repeat that candidate (see `partitions`); a candidate's name ("joint_model",
     "fused_graph", "concatenation") takes that one always.
     """
 

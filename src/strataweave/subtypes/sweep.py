@@ -24,7 +24,7 @@ from strataweave.subtypes.compare import compare_partitions, split_flow
 from strataweave.subtypes.consensus import kept_patients, summarise_consensus
 from strataweave.subtypes.criteria import cophenetic_correlation, resample_stability, smallest_subtype_size
 from strataweave.subtypes.parallel import ParallelSettings, TaskRunner
-from strataweave.subtypes.partitions import graph_degree, joint_coordinates
+from strataweave.subtypes.partitions import graph_degree, joint_coordinates, modality_partitions
 from strataweave.subtypes.recommend import recommend_count
 from strataweave.subtypes.result import SweepResult
 from strataweave.subtypes.settings import SweepSettings, check_counts, default_min_size
@@ -88,13 +88,12 @@ def _affinity(graph: PatientGraph | sp.spmatrix, patients: pd.Index | None, n_pa
     return sp.csr_matrix(graph, dtype=np.float64)
 
 
-def _judging_graphs(graph, modality_graphs, affinity: sp.csr_matrix) -> list[sp.csr_matrix]:
-    """Each modality's own graph (given, or the PatientGraph's), else the fused affinity alone."""
+def _modality_graphs(graph, modality_graphs, n: int) -> list[sp.csr_matrix]:
+    """Each modality's own graph (given, or the PatientGraph's); none for a bare affinity."""
     if modality_graphs is None and isinstance(graph, PatientGraph):
         modality_graphs = graph.modality_graphs
     if not modality_graphs:
-        return [affinity]
-    n = affinity.shape[0]
+        return []
     for name, own in modality_graphs.items():
         if not sp.issparse(own) or own.shape != (n, n):
             raise InputError(f"modality graph {name!r}: found shape {getattr(own, 'shape', None)}; "
@@ -127,8 +126,10 @@ def sweep_subtype_counts(
     profiles). factorization: JointNMF keyword arguments (graph_weight,
     max_iter, tol, init, n_restarts, dtype, ...). progress: called with the number of finished
     tasks (total: :func:`planned_tasks`). modality_graphs: each modality's own patient graph
-    on the same patients, which judge the candidate partitions (`partitions`); default: those of
-    a PatientGraph `graph`, else the fused affinity alone.
+    on the same patients, whose spectral partitions vote on the candidate partitions
+    (`partitions`) and whose mean modularity the criteria report; default: those of a
+    PatientGraph `graph`, else none (the candidates vote among themselves, the fused affinity
+    gives the modularity).
     """
     arrays, patients = _named_arrays(views)
     n_patients = next(iter(arrays.values())).shape[0]
@@ -142,12 +143,13 @@ def sweep_subtype_counts(
         if fixed in factorization:
             raise InputError(f"factorization: found {fixed!r}; expected it left to the sweep")
 
-    full_root, resample_root, joint_root, kept_root = child_seeds(random_state, 4)
+    full_root, resample_root, joint_root, kept_root, vote_root = child_seeds(random_state, 5)
+    own_graphs = _modality_graphs(graph, modality_graphs, n_patients)
     concatenated = concatenated_scaled(list(_profile_arrays(profiles, patients, n_patients, arrays).values()))
     shared = SweepInputs(
         arrays, affinity, counts, factorization, settings, concatenated,
         joint_coordinates(concatenated, joint_root), graph_degree(affinity),
-        _judging_graphs(graph, modality_graphs, affinity),
+        own_graphs or [affinity], modality_partitions(own_graphs, counts, vote_root),
     )
     count_seeds = child_seeds(full_root, max(counts) + 1)
     with TaskRunner(parallel) as runner:
@@ -196,9 +198,9 @@ def _assemble(patients, affinity, counts, settings, fits, resample_labels, kept,
             "reconstruction_error": float(np.mean(fit.model.reconstruction_error_)),
             "smallest_subtype": smallest_subtype_size(fit.labels),
             "stability": resample_stability(resample_labels[k], fit.labels),
-            "modularity": fit.modularity[fit.source],
+            "modularity": fit.modularity,
         }
-        partitions[k] = {"source": fit.source, **{f"modularity_{name}": q for name, q in fit.modularity.items()}}
+        partitions[k] = {"source": fit.source, **{f"agreement_{name}": a for name, a in fit.agreement.items()}}
         baseline_labels[k] = pd.DataFrame(fit.baseline_labels, index=patients)
         for method, labels in fit.baseline_labels.items():
             agreement = compare_partitions(fit.labels, labels)

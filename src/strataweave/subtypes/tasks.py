@@ -16,6 +16,7 @@ import scipy.sparse as sp
 from sklearn.exceptions import ConvergenceWarning
 
 from strataweave.factorize import JointNMF, label_patients, partition_factor, scores_for_labels
+from strataweave.graph import modularity
 from strataweave.seeding import child_seeds
 from strataweave.subtypes.baselines import graph_partitions, kmeans_labels
 from strataweave.subtypes.consensus import NOT_DRAWN
@@ -28,8 +29,9 @@ class SweepInputs:
     """What every task reads: modalities (name -> patients x features, all-NaN rows for a
     missing modality), the fused affinity, the counts, JointNMF keyword arguments, the
     sweep settings, the scaled concatenation for the k-means baseline, its principal
-    coordinates and the neighbour count for the concatenation partition, the graphs that judge
-    the candidate partitions (each modality's own, see `partitions`), for warm starts the
+    coordinates and the neighbour count for the concatenation partition, the graphs whose mean
+    modularity the criteria report (each modality's own), each modality's own partition per count
+    (which vote on the candidate partitions, see `partitions`), for warm starts the
     full-data factors per count, and for the resamples the candidate each count's full-data
     fit took (see `partitions`)."""
 
@@ -41,7 +43,8 @@ class SweepInputs:
     concatenated: np.ndarray
     joint: np.ndarray
     joint_neighbours: int
-    judging_graphs: list[sp.csr_matrix]
+    modality_graphs: list[sp.csr_matrix]
+    modality_partitions: dict[int, list[tuple[np.ndarray, np.ndarray]]]
     warm_factors: dict[int, tuple[np.ndarray, list[np.ndarray]]] | None = None
     sources: dict[int, str] | None = None
 
@@ -49,13 +52,15 @@ class SweepInputs:
 @dataclass
 class FullFit:
     """The full-data fit at one count: model, labels (and which candidate partition they are,
-    with every candidate's modularity), confidence, scores, baseline labels."""
+    with every candidate's agreement, and their mean modularity on the modalities' graphs),
+    confidence, scores, baseline labels."""
 
     count: int
     model: JointNMF
     labels: np.ndarray
     source: str
-    modularity: dict[str, float]
+    agreement: dict[str, float]
+    modularity: float
     confidence: np.ndarray
     scores: np.ndarray
     baseline_labels: dict[str, np.ndarray]
@@ -114,10 +119,11 @@ def fit_full_data(shared: SweepInputs, task: tuple[int, int]) -> FullFit:
         shared.settings, model_labels, spectral,
         lambda: concatenation_partitions(shared.joint, [count], shared.joint_neighbours, joint_seed)[count],
     )
-    source, labels, modularity = choose_partition(shared.judging_graphs, candidates)
+    source, labels, agreement = choose_partition(candidates, shared.modality_partitions[count])
+    quality = float(np.mean([modularity(graph, labels) for graph in shared.modality_graphs]))
     confidence, scores = scores_for_labels(model.patient_factor_, labels, count)
     baselines = {"spectral": spectral, "kmeans": kmeans_labels(shared.concatenated, count, kmeans_seed)}
-    return FullFit(count, model, labels, source, modularity, confidence, scores, baselines, unconverged)
+    return FullFit(count, model, labels, source, agreement, quality, confidence, scores, baselines, unconverged)
 
 
 def _draw(rng: np.random.Generator, size: int, fraction: float, at_least: int) -> np.ndarray:
